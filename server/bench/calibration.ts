@@ -1,0 +1,24 @@
+// Host-side channel calibration: value = scale * raw + offset, per channel. The firmware reports engineering
+// units already; this corrects them against reference readings (known masses, a multimeter) without
+// reflashing. Identity until a calibration is made.
+
+export interface ChannelCal {
+  scale: number;
+  offset: number;
+}
+
+export interface Calibration {
+  thrust: ChannelCal;
+  voltage: ChannelCal;
+  current: ChannelCal;
+  torque: ChannelCal;
+}
+
+export function identityCalibration(): Calibration {
+  const id = (): ChannelCal => ({ scale: 1, offset: 0 });
+  return { thrust: id(), voltage: id(), current: id(), torque: id() };
+}
+
+export function applyCalibration(c: ChannelCal, raw: number): number {
+  return c.scale * raw + c.offset;
+}

@@ -1,0 +1,167 @@
+// The daemon's HTTP surface: the built dashboard as static files, a small token-guarded JSON API under /api/,
+// and the WebSocket at /ws. Access checks (Host, Origin, token) happen on the raw upgrade request, before
+// any WebSocket handshake, so a refused page never gets a socket to send on.
+
+import { createReadStream, statSync } from 'node:fs';
+import { createServer, type IncomingMessage, type Server, type ServerResponse } from 'node:http';
+import type { Duplex } from 'node:stream';
+import { extname, join, normalize, resolve, sep } from 'node:path';
+import { WebSocketServer, type WebSocket } from 'ws';
+import { MAX_CLIENT_MESSAGE_BYTES } from '../api/messages.js';
+import { allowedHosts, hostAllowed, originAllowed, tokenFromCookie, tokenFromUrl, tokenMatches } from './access.js';
+
+const TYPES: Record<string, string> = {
+  '.html': 'text/html; charset=utf-8',
+  '.js': 'text/javascript; charset=utf-8',
+  '.css': 'text/css; charset=utf-8',
+  '.svg': 'image/svg+xml',
+  '.png': 'image/png',
+  '.ico': 'image/x-icon',
+  '.json': 'application/json',
+  '.map': 'application/json',
+  '.woff2': 'font/woff2',
+};
+
+export type ApiHandler = (req: IncomingMessage, url: URL) => Promise<{ status: number; body: unknown }>;
+
+export interface HttpOptions {
+  host: string;
+  port: number;
+  token: string;
+  /** Folder of the built dashboard (dist/web). */
+  webRoot: string;
+  onSocket(ws: WebSocket, req: IncomingMessage): void;
+  api?: Record<string, ApiHandler>;
+}
+
+export interface HttpSurface {
+  server: Server;
+  port: number;
+  close(): Promise<void>;
+}
+
+function refuseUpgrade(socket: Duplex, status: number, text: string): void {
+  socket.end(`HTTP/1.1 ${status} ${text}\r\nConnection: close\r\nContent-Type: text/plain\r\nContent-Length: ${text.length}\r\n\r\n${text}`);
+}
+
+export async function startHttp(opts: HttpOptions): Promise<HttpSurface> {
+  const wss = new WebSocketServer({ noServer: true, maxPayload: MAX_CLIENT_MESSAGE_BYTES });
+  const root = resolve(opts.webRoot);
+  let hosts = allowedHosts(opts.host, opts.port);
+
+  const server = createServer((req, res) => {
+    void handle(req, res).catch((err: Error) => {
+      if (!res.headersSent) res.writeHead(500, { 'content-type': 'text/plain' });
+      res.end(`internal error: ${err.message}\n`);
+    });
+  });
+
+  async function handle(req: IncomingMessage, res: ServerResponse): Promise<void> {
+    if (!hostAllowed(req.headers.host, hosts)) {
+      res.writeHead(421, { 'content-type': 'text/plain' }).end('misdirected request: unknown Host\n');
+      return;
+    }
+    const url = new URL(req.url ?? '/', 'http://local');
+    if (url.pathname.startsWith('/api/')) {
+      const given = tokenFromUrl(req.url) ?? bearer(req) ?? tokenFromCookie(req.headers.cookie);
+      if (!tokenMatches(opts.token, given)) {
+        res.writeHead(401, { 'content-type': 'application/json' }).end(JSON.stringify({ error: 'token required' }));
+        return;
+      }
+      const h = opts.api?.[`${req.method} ${url.pathname}`];
+      if (!h) {
+        res.writeHead(404, { 'content-type': 'application/json' }).end(JSON.stringify({ error: 'no such endpoint' }));
+        return;
+      }
+      const r = await h(req, url);
+      res.writeHead(r.status, { 'content-type': 'application/json', 'cache-control': 'no-store' }).end(JSON.stringify(r.body));
+      return;
+    }
+    if (req.method !== 'GET' && req.method !== 'HEAD') {
+      res.writeHead(405, { allow: 'GET, HEAD' }).end();
+      return;
+    }
+    serveStatic(url.pathname, res);
+  }
+
+  function serveStatic(pathname: string, res: ServerResponse): void {
+    let rel: string;
+    try {
+      rel = decodeURIComponent(pathname);
+    } catch {
+      res.writeHead(400).end();
+      return;
+    }
+    if (rel.includes('\0')) {
+      res.writeHead(400).end();
+      return;
+    }
+    if (rel.endsWith('/')) rel += 'index.html';
+    const file = normalize(join(root, rel));
+    if (file !== root && !file.startsWith(root + sep)) {
+      res.writeHead(403).end();
+      return;
+    }
+    let size: number;
+    try {
+      const st = statSync(file);
+      if (!st.isFile()) throw new Error('not a file');
+      size = st.size;
+    } catch {
+      if (rel === '/index.html') {
+        res.writeHead(503, { 'content-type': 'text/plain' }).end('dashboard not built: run `npm run build`\n');
+      } else {
+        res.writeHead(404, { 'content-type': 'text/plain' }).end('not found\n');
+      }
+      return;
+    }
+    res.writeHead(200, {
+      'content-type': TYPES[extname(file)] ?? 'application/octet-stream',
+      'content-length': size,
+      'cache-control': file.endsWith('index.html') ? 'no-store' : 'max-age=3600',
+      'x-content-type-options': 'nosniff',
+      'referrer-policy': 'no-referrer',
+      'content-security-policy': "default-src 'self'; connect-src 'self'; img-src 'self' data: blob:; style-src 'self' 'unsafe-inline'; frame-ancestors 'none'",
+    });
+    createReadStream(file).pipe(res);
+  }
+
+  server.on('upgrade', (req, socket, head) => {
+    socket.on('error', () => socket.destroy());
+    const url = new URL(req.url ?? '/', 'http://local');
+    if (url.pathname !== '/ws') return refuseUpgrade(socket, 404, 'Not Found');
+    if (!hostAllowed(req.headers.host, hosts)) return refuseUpgrade(socket, 421, 'Misdirected Request');
+    if (!originAllowed(req.headers.origin, hosts)) return refuseUpgrade(socket, 403, 'Forbidden');
+    const given = tokenFromUrl(req.url) ?? tokenFromCookie(req.headers.cookie);
+    if (!tokenMatches(opts.token, given)) return refuseUpgrade(socket, 401, 'Unauthorized');
+    wss.handleUpgrade(req, socket, head, (ws) => opts.onSocket(ws, req));
+  });
+
+  await new Promise<void>((res, rej) => {
+    server.once('error', rej);
+    server.listen(opts.port, opts.host, () => {
+      server.off('error', rej);
+      res();
+    });
+  });
+  const addr = server.address();
+  const port = typeof addr === 'object' && addr ? addr.port : opts.port;
+  hosts = allowedHosts(opts.host, port);
+
+  return {
+    server,
+    port,
+    close: () =>
+      new Promise<void>((res) => {
+        for (const ws of wss.clients) ws.terminate();
+        wss.close();
+        server.closeAllConnections();
+        server.close(() => res());
+      }),
+  };
+}
+
+function bearer(req: IncomingMessage): string | null {
+  const h = req.headers.authorization;
+  return h && h.startsWith('Bearer ') ? h.slice(7) : null;
+}
