@@ -1,0 +1,217 @@
+// The daemon: one device link, one bench controller, the telemetry pipeline and the HTTP/WebSocket surface,
+// wired so data flows one way (bytes -> frames -> samples -> checks -> history/broadcast) and commands flow
+// back through the controller alone.
+
+import { fileURLToPath } from 'node:url';
+import type { IncomingMessage } from 'node:http';
+import type { WebSocket } from 'ws';
+import { API_VERSION, emptyBatch, type BenchEvent, type ClientMessage, type SampleBatch, type Snapshot } from './api/messages.js';
+import { BenchController, ControlError } from './bench/controller.js';
+import { SampleRing, appendToBatch } from './bench/history.js';
+import { TelemetryPipeline, type Sample } from './bench/telemetry.js';
+import { startHttp, type HttpSurface } from './http/server.js';
+import { Hub, type Client } from './http/hub.js';
+import { newToken } from './http/access.js';
+import { DeviceLink, type LinkOptions } from './link/link.js';
+import { SerialTransport } from './link/serial-transport.js';
+import type { Transport } from './link/transport.js';
+
+export const DEFAULT_HTTP_PORT = 8470;
+/** How often sample batches go out to dashboards. */
+export const BATCH_INTERVAL_MS = 50;
+const HISTORY_CAPACITY = 200_000;
+const SNAPSHOT_WINDOW_MS = 120_000;
+const SNAPSHOT_MAX_POINTS = 6000;
+const EVENT_LOG_CAP = 200;
+
+export type DeviceSource =
+  | { kind: 'sim'; rigFile?: string; seed?: number }
+  | { kind: 'serial'; path: string; baud?: number }
+  | { kind: 'custom'; transport: () => Transport };
+
+export interface DaemonOptions {
+  source: DeviceSource;
+  host?: string;
+  httpPort?: number;
+  token?: string;
+  dataDir?: string;
+  /** Built dashboard folder; defaults to dist/web beside the compiled server. */
+  webRoot?: string;
+  link?: Partial<Omit<LinkOptions, 'transport'>>;
+  log?: (line: string) => void;
+}
+
+export interface RunningDaemon {
+  url: string;
+  port: number;
+  token: string;
+  link: DeviceLink;
+  controller: BenchController;
+  hub: Hub;
+  /** Resolves once the first connection attempt has finished (ready or failed). */
+  firstConnect: Promise<void>;
+  /** Cuts the throttle, then closes everything. */
+  close(): Promise<void>;
+  /** Subscribe to every calibrated sample (tests, benchmarks, the store). */
+  onSample(fn: (s: Sample, arrivedAt: number) => void): () => void;
+}
+
+function defaultWebRoot(): string {
+  // dist/server/daemon.js -> dist/web ; server/daemon.ts (vitest) -> dist/web
+  const here = fileURLToPath(new URL('.', import.meta.url));
+  return here.includes(`${'/'}dist${'/'}`) ? fileURLToPath(new URL('../web/', import.meta.url)) : fileURLToPath(new URL('../dist/web/', import.meta.url));
+}
+
+async function transportFor(source: DeviceSource): Promise<() => Transport> {
+  switch (source.kind) {
+    case 'serial':
+      return () => new SerialTransport(source.path, source.baud ?? 115200);
+    case 'custom':
+      return source.transport;
+    case 'sim': {
+      const sim = await import('./sim/index.js');
+      const rig = source.rigFile ? sim.loadSimRig(source.rigFile) : undefined;
+      return () => new sim.SimTransport({ ...(rig ? { rig } : {}), ...(source.seed !== undefined ? { seed: source.seed } : {}) });
+    }
+  }
+}
+
+export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
+  const log = opts.log ?? ((l: string) => process.stderr.write(l + '\n'));
+  const host = opts.host ?? '127.0.0.1';
+  const token = opts.token ?? newToken();
+  const makeTransport = await transportFor(opts.source);
+  const link = new DeviceLink({ ...opts.link, transport: makeTransport });
+  const controller = new BenchController(link);
+  const pipeline = new TelemetryPipeline();
+  const history = new SampleRing(HISTORY_CAPACITY);
+  const events: BenchEvent[] = [];
+  const sampleListeners = new Set<(s: Sample, arrivedAt: number) => void>();
+  let pending: SampleBatch = emptyBatch();
+
+  const hub = new Hub({
+    onConnect: (client) => snapshot(client),
+    onDisconnect: (client) => {
+      // Losing the controlling dashboard while the motor may turn stops the motor: nobody is watching it.
+      if (client.role === 'controller' && (controller.state === 'armed' || controller.state === 'running')) {
+        controller.stop('controlling dashboard disconnected');
+      }
+    },
+    onMessage: (client, msg) => handleClient(client, msg),
+  });
+
+  function snapshot(client: Client): Snapshot {
+    return {
+      type: 'snapshot',
+      api: API_VERSION,
+      role: client.role,
+      bench: controller.view(),
+      link: link.view(),
+      identity: link.identity,
+      history: history.toBatch(Date.now() - SNAPSHOT_WINDOW_MS, SNAPSHOT_MAX_POINTS),
+      events: events.slice(-50),
+      extras: {},
+    };
+  }
+
+  async function handleClient(_client: Client, msg: ClientMessage): Promise<void> {
+    switch (msg.type) {
+      case 'stop':
+        controller.stop('dashboard');
+        return;
+      case 'arm':
+        return controller.arm();
+      case 'disarm':
+        return controller.disarm();
+      case 'throttle':
+        return controller.setThrottle(msg.value);
+      case 'clear':
+        return controller.acknowledge();
+      case 'tare':
+        return controller.tare();
+      case 'ping':
+        return;
+      default:
+        throw new ControlError('unsupported message');
+    }
+  }
+
+  link.on('frame', (f) => {
+    if (f.tag !== 'TEL') return;
+    const arrivedAt = performance.now();
+    const s = pipeline.toSample(f, Date.now());
+    for (const fn of sampleListeners) fn(s, arrivedAt);
+    history.push(s);
+    appendToBatch(pending, s);
+  });
+  link.on('ready', () => pipeline.reset());
+  link.on('identity', (identity) => hub.broadcast({ type: 'identity', identity }));
+  link.on('status', (view) => hub.broadcast({ type: 'link', link: view }));
+  controller.on('bench', (bench) => hub.broadcast({ type: 'bench', bench }));
+  controller.on('event', (event) => {
+    events.push(event);
+    if (events.length > EVENT_LOG_CAP) events.splice(0, events.length - EVENT_LOG_CAP);
+    hub.broadcast({ type: 'event', event });
+    if (event.level !== 'info' || event.kind === 'state') log(`[${event.level}] ${event.text}`);
+  });
+
+  const flush = setInterval(() => {
+    if (pending.t.length === 0) return;
+    const batch = pending;
+    pending = emptyBatch();
+    hub.broadcast({ type: 'samples', batch });
+  }, BATCH_INTERVAL_MS);
+  // Counters move all the time; send them once a second rather than on every line.
+  const linkTick = setInterval(() => hub.broadcast({ type: 'link', link: link.view() }), 1000);
+
+  let http: HttpSurface;
+  try {
+    http = await startHttp({
+      host,
+      port: opts.httpPort ?? DEFAULT_HTTP_PORT,
+      token,
+      webRoot: opts.webRoot ?? defaultWebRoot(),
+      onSocket: (ws: WebSocket, _req: IncomingMessage) => hub.add(ws),
+      api: {
+        'GET /api/status': async () => ({ status: 200, body: { bench: controller.view(), link: link.view(), identity: link.identity } }),
+      },
+    });
+  } catch (err) {
+    clearInterval(flush);
+    clearInterval(linkTick);
+    throw err;
+  }
+
+  const firstConnect = link.start().then(
+    () => undefined,
+    (err: Error) => log(`ductbench: ${err.message}${link.status === 'closed' ? '' : ' (retrying)'}`),
+  );
+
+  const urlHost = host === '0.0.0.0' || host === '::' ? '127.0.0.1' : host.includes(':') ? `[${host}]` : host;
+  let closed = false;
+  return {
+    url: `http://${urlHost}:${http.port}/?token=${encodeURIComponent(token)}`,
+    port: http.port,
+    token,
+    link,
+    controller,
+    hub,
+    firstConnect,
+    onSample(fn) {
+      sampleListeners.add(fn);
+      return () => sampleListeners.delete(fn);
+    },
+    async close() {
+      if (closed) return;
+      closed = true;
+      // Cut first. Wait briefly for the device's ACK so the STOP is on the wire before the port closes.
+      const sent = link.sendUrgent('estop');
+      if (sent) await Promise.race([sent.acked.catch(() => {}), new Promise((r) => setTimeout(r, 300))]);
+      clearInterval(flush);
+      clearInterval(linkTick);
+      hub.closeAll();
+      await link.close();
+      await http.close();
+    },
+  };
+}
