@@ -422,18 +422,20 @@ export class DeviceLink extends TypedEmitter<LinkEvents> {
   private fail(error: LinkError): void {
     const t = this.transport;
     this.lastError = error;
-    this.teardown(error, 'reconnecting');
-    if (t) void t.close().catch(() => {});
-    if (!this.wanted || !this.opts.reconnect || this.opts.fatalKinds.includes(error.kind)) {
+    const retry = this.wanted && this.opts.reconnect && !this.opts.fatalKinds.includes(error.kind);
+    let delay = 0;
+    if (retry) {
+      delay = this.backoffMs;
+      this.backoffMs = Math.min(this.backoffMs * 2, this.opts.reconnectMaxMs);
+      this.retryAt = Date.now() + delay;
+      this.counters.reconnects++;
+    } else {
       this.wanted = false;
-      this.setStatus('closed');
-      return;
+      this.retryAt = null;
     }
-    const delay = this.backoffMs;
-    this.backoffMs = Math.min(this.backoffMs * 2, this.opts.reconnectMaxMs);
-    this.retryAt = Date.now() + delay;
-    this.counters.reconnects++;
-    this.setStatus('reconnecting');
+    this.teardown(error, retry ? 'reconnecting' : 'closed');
+    if (t) void t.close().catch(() => {});
+    if (!retry) return;
     this.reconnectTimer = setTimeout(() => {
       this.reconnectTimer = null;
       void this.connect();
