@@ -2,7 +2,9 @@
 // written by firmware-protocol/scripts/make-vectors.mjs with its own bit-by-bit CRC and hand-written fields,
 // never by this codec, so agreement here is a real check and not the codec agreeing with itself.
 
+import { execFileSync } from 'node:child_process';
 import { readFileSync } from 'node:fs';
+import { fileURLToPath } from 'node:url';
 import { describe, expect, it } from 'vitest';
 import { DECODE_ERROR_REASONS, decodeLine, encodeLine, type DecodeErrorReason } from '../firmware-protocol/src/codec.js';
 import { LineSplitter } from '../firmware-protocol/src/lines.js';
@@ -35,6 +37,12 @@ describe('vector file', () => {
 
   it('is 7-bit printable text, so every unusual byte of a vector shows as a JSON escape', () => {
     for (const b of raw) expect(b === 10 || (b >= 0x20 && b <= 0x7e)).toBe(true);
+  });
+
+  it('is exactly what its generator writes (nobody edited it by hand)', () => {
+    const script = fileURLToPath(new URL('../firmware-protocol/scripts/make-vectors.mjs', import.meta.url));
+    const fresh = execFileSync(process.execPath, [script, '--stdout'], { encoding: 'utf8', timeout: 60_000 });
+    expect(fresh).toBe(raw.toString('utf8'));
   });
 
   it('holds only byte-valued characters', () => {

@@ -5,7 +5,8 @@
 // Plain JavaScript on purpose: it runs on Node 20 without a build, and it does NOT import the codec it is meant
 // to check. Checksums come from the bit-by-bit CRC below and the expected fields are written out by hand, so a
 // bug in the codec cannot leak into its own test data. test/protocol-vectors.test.ts checks the codec against
-// the file; run this script only when the vectors themselves change:  node firmware-protocol/scripts/make-vectors.mjs
+// the file (and that it is exactly what this script writes); after changing a vector here run:
+//   node firmware-protocol/scripts/make-vectors.mjs
 
 import { writeFileSync } from 'node:fs';
 import { dirname, join } from 'node:path';
@@ -177,6 +178,11 @@ const doc = {
 // JSON.stringify escapes control characters but writes DEL and bytes >= 0x80 raw; escape them so the file stays
 // 7-bit and every byte of a vector is visible.
 const json = JSON.stringify(doc, null, 2).replace(/[\u007f-\uffff]/g, (c) => '\\u' + c.charCodeAt(0).toString(16).padStart(4, '0'));
-const out = join(dirname(fileURLToPath(import.meta.url)), '..', 'vectors', 'v1.json');
-writeFileSync(out, json + '\n');
-console.log(`wrote ${out}: ${valid.length} valid, ${invalid.length} invalid`);
+if (process.argv.includes('--stdout')) {
+  // Used by test/protocol-vectors.test.ts to prove the committed file is what this script writes.
+  process.stdout.write(json + '\n');
+} else {
+  const out = join(dirname(fileURLToPath(import.meta.url)), '..', 'vectors', 'v1.json');
+  writeFileSync(out, json + '\n');
+  console.log(`wrote ${out}: ${valid.length} valid, ${invalid.length} invalid`);
+}
