@@ -30,7 +30,7 @@ export const FAULT_MEANINGS: Readonly<Record<FaultCode, string>> = {
   heartbeat: 'No host heartbeat arrived within the time-out after the handshake.',
   host_trip: 'The host cut the throttle because one of its own limits tripped (STOP why=host_trip).',
   brownout: "The supply voltage fell below the firmware's floor.",
-  reset: 'The controller restarted (power-up or watchdog); latched at boot so a restart is never silent.',
+  reset: 'The controller restarted other than by power-on (watchdog, brown-out reset, reset line); latched at boot so a restart is never silent.',
   sensor: 'A required sensor stopped answering.',
   overcurrent: "The firmware's own hard current limit tripped.",
 };
@@ -43,7 +43,7 @@ export const REFUSAL_MEANINGS: Readonly<Record<RefusalCode, string>> = {
   above_ceiling: 'The throttle asked for is above the hard ceiling (IDENT thrmax): refused, never clamped.',
   bad_value: 'The line had a good checksum, but a field is unknown, repeated, missing or breaks its rule.',
   unsupported: 'The command, channel or capability is not available on this firmware.',
-  busy: 'A tare or calibration is still running, or TARE was asked for while armed.',
+  busy: 'A tare or calibration is still running, TARE was asked for while armed, or the command queue is full.',
 };
 
 const DIRECTION_TEXT = { d2h: 'device to host', h2d: 'host to device' } as const;
