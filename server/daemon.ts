@@ -137,7 +137,11 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
   }
 
   link.on('frame', (f) => {
-    if (f.tag !== 'TEL') return;
+    if (f.tag !== 'TEL') {
+      // An IDENT while connected means the controller restarted: its clock starts again from zero.
+      if (f.tag === 'IDENT') pipeline.reset();
+      return;
+    }
     const arrivedAt = performance.now();
     const s = pipeline.toSample(f, Date.now());
     for (const fn of sampleListeners) fn(s, arrivedAt);

@@ -44,6 +44,12 @@ describe('device link', () => {
     expect((v2 as LinkError).message).toMatch(/protocol v2.*v1/);
   });
 
+  it('refuses a device whose heartbeat time-out is longer than 300 ms', async () => {
+    const err = await makeLink(() => new ScriptedDevice('slow-heartbeat'), { reconnect: false }).start().catch((e: LinkError) => e);
+    expect((err as LinkError).kind).toBe('protocol_mismatch');
+    expect((err as LinkError).message).toMatch(/1000 ms.*at most 300 ms/);
+  });
+
   it('a port that cannot be opened is an open_failed error naming the port', async () => {
     const err = await makeLink(() => new ScriptedDevice('refuse-open'), { reconnect: false }).start().catch((e: LinkError) => e);
     expect((err as LinkError).kind).toBe('open_failed');

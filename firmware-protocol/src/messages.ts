@@ -63,7 +63,7 @@ export type FaultCode = (typeof FAULT_CODES)[number];
 /** Reasons the device gives when it refuses a command. */
 export const REFUSAL_CODES = [
   'not_ready', // no handshake yet
-  'latched', // a fault is latched; only STATUS, STOP, CLEAR (and HB) are accepted
+  'latched', // a fault is latched; only HELLO, HB, STATUS, STOP, CLEAR and DISARM are accepted
   'not_armed', // throttle asked for while disarmed
   'throttle_not_zero', // arm asked for while the throttle is above zero
   'above_ceiling', // throttle above the hard ceiling: refused, never clamped

@@ -7,6 +7,7 @@
 import { decodeLine, encodeLine, nextSeq, seqGap, type DecodeErrorReason } from '../../firmware-protocol/src/codec.js';
 import { LineSplitter } from '../../firmware-protocol/src/lines.js';
 import {
+  DEFAULT_HEARTBEAT_TIMEOUT_MS,
   HEARTBEAT_INTERVAL_MS,
   PROTOCOL_VERSION,
   type DeviceFrame,
@@ -375,6 +376,11 @@ export class DeviceLink extends TypedEmitter<LinkEvents> {
     const id = identityFromFrame(frame);
     if (id.protocol !== PROTOCOL_VERSION) {
       this.fail(new LinkError('protocol_mismatch', `device speaks protocol v${id.protocol}, ductbench speaks v${PROTOCOL_VERSION}; update the firmware or ductbench`));
+      return;
+    }
+    if (id.heartbeatTimeoutMs > DEFAULT_HEARTBEAT_TIMEOUT_MS) {
+      // A device that would keep a motor turning for longer than this after the host dies is not safe to drive.
+      this.fail(new LinkError('protocol_mismatch', `device announces a heartbeat time-out of ${id.heartbeatTimeoutMs} ms; ductbench requires at most ${DEFAULT_HEARTBEAT_TIMEOUT_MS} ms`));
       return;
     }
     const wasReady = this.statusValue === 'ready';
