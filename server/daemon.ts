@@ -15,6 +15,7 @@ import { newToken } from './http/access.js';
 import { DeviceLink, type LinkOptions } from './link/link.js';
 import { SerialTransport } from './link/serial-transport.js';
 import type { Transport } from './link/transport.js';
+import type { VirtualBench } from './sim/index.js';
 
 export const DEFAULT_HTTP_PORT = 8470;
 /** How often sample batches go out to dashboards. */
@@ -48,6 +49,8 @@ export interface RunningDaemon {
   link: DeviceLink;
   controller: BenchController;
   hub: Hub;
+  /** The in-process virtual bench, when that is the device (tests and fault injection reach it here). */
+  sim: VirtualBench | null;
   /** Resolves once the first connection attempt has finished (ready or failed). */
   firstConnect: Promise<void>;
   /** Cuts the throttle, then closes everything. */
@@ -62,16 +65,19 @@ function defaultWebRoot(): string {
   return here.includes(`${'/'}dist${'/'}`) ? fileURLToPath(new URL('../web/', import.meta.url)) : fileURLToPath(new URL('../dist/web/', import.meta.url));
 }
 
-async function transportFor(source: DeviceSource): Promise<() => Transport> {
+/** The device transport factory, and for the virtual bench the one bench that outlives reconnections. */
+async function transportFor(source: DeviceSource): Promise<{ make: () => Transport; sim: VirtualBench | null }> {
   switch (source.kind) {
     case 'serial':
-      return () => new SerialTransport(source.path, source.baud ?? 115200);
+      return { make: () => new SerialTransport(source.path, source.baud ?? 115200), sim: null };
     case 'custom':
-      return source.transport;
+      return { make: source.transport, sim: null };
     case 'sim': {
       const sim = await import('./sim/index.js');
       const rig = source.rigFile ? sim.loadSimRig(source.rigFile) : undefined;
-      return () => new sim.SimTransport({ ...(rig ? { rig } : {}), ...(source.seed !== undefined ? { seed: source.seed } : {}) });
+      // One bench for every reconnection: after a cable "unplug" it is still the same board, still latched.
+      const bench = new sim.VirtualBench({ ...(rig ? { rig } : {}), ...(source.seed !== undefined ? { seed: source.seed } : {}) });
+      return { make: () => new sim.SimTransport({ bench }), sim: bench };
     }
   }
 }
@@ -80,7 +86,7 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
   const log = opts.log ?? ((l: string) => process.stderr.write(l + '\n'));
   const host = opts.host ?? '127.0.0.1';
   const token = opts.token ?? newToken();
-  const makeTransport = await transportFor(opts.source);
+  const { make: makeTransport, sim } = await transportFor(opts.source);
   const link = new DeviceLink({ ...opts.link, transport: makeTransport });
   const controller = new BenchController(link);
   const pipeline = new TelemetryPipeline();
@@ -200,6 +206,7 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     link,
     controller,
     hub,
+    sim,
     firstConnect,
     onSample(fn) {
       sampleListeners.add(fn);
