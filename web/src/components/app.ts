@@ -1,0 +1,179 @@
+import { LitElement, css, html } from 'lit';
+import type { SampleChannel } from '../../../server/api/messages.js';
+import { provideDashboard, type Dashboard } from '../data/context.js';
+import { installStopKeys } from '../keys.js';
+import './bench-controls.js';
+import './bench-status.js';
+import './caution-banner.js';
+import './efficiency-chart.js';
+import './identity-card.js';
+import './live-chart.js';
+import './readouts.js';
+import './stop-button.js';
+import './view-options.js';
+
+const LIVE_CHANNELS: SampleChannel[] = ['thrust', 'power', 'voltage', 'current', 'rpm'];
+
+/**
+ * The page: provides the dashboard's shared state to everything inside, owns the Space/Escape stop keys,
+ * and lays the panels out. Reflects the connection state as data-connection for tests and styling.
+ */
+export class DbApp extends LitElement {
+  static override styles = css`
+    :host {
+      display: block;
+      min-height: 100vh;
+      background: var(--db-bg);
+      color: var(--db-ink);
+    }
+    db-caution-banner {
+      position: sticky;
+      top: 0;
+      z-index: 900;
+    }
+    header {
+      display: flex;
+      align-items: center;
+      justify-content: space-between;
+      flex-wrap: wrap;
+      gap: 0.6rem 1.5rem;
+      padding: 0.7rem 1rem 0.2rem;
+    }
+    h1 {
+      margin: 0;
+      font-size: 1.25rem;
+      letter-spacing: 0.02em;
+    }
+    h1 small {
+      font-weight: 400;
+      color: var(--db-muted);
+      font-size: 0.85rem;
+      margin-left: 0.5rem;
+    }
+    .alert {
+      margin: 0.5rem 1rem 0;
+      padding: 0.6rem 0.9rem;
+      border-radius: 8px;
+      background: var(--db-danger-bg);
+      color: var(--db-danger);
+      border: 1px solid var(--db-danger);
+      font-weight: 600;
+    }
+    .layout {
+      display: grid;
+      grid-template-columns: minmax(0, 1fr) minmax(17rem, 23rem);
+      gap: 0.8rem;
+      padding: 0.7rem 1rem;
+      /* Room under the content so the fixed stop button never hides the last panel. */
+      padding-bottom: 10rem;
+      align-items: start;
+    }
+    .side {
+      display: grid;
+      gap: 0.8rem;
+    }
+    .main {
+      display: grid;
+      gap: 0.8rem;
+      min-width: 0;
+    }
+    .charts {
+      display: grid;
+      grid-template-columns: repeat(auto-fit, minmax(22rem, 1fr));
+      gap: 0.8rem;
+    }
+    db-efficiency-chart {
+      grid-column: 1 / -1;
+    }
+    @media (max-width: 900px) {
+      .layout {
+        grid-template-columns: minmax(0, 1fr);
+      }
+      .charts {
+        grid-template-columns: minmax(0, 1fr);
+      }
+    }
+  `;
+
+  static override properties = { dashboard: { attribute: false } };
+  declare dashboard: Dashboard | null;
+
+  private _releaseProvider: (() => void) | null = null;
+  private _releaseKeys: (() => void) | null = null;
+  private _unsubscribe: (() => void) | null = null;
+
+  constructor() {
+    super();
+    this.dashboard = null;
+  }
+
+  override connectedCallback(): void {
+    super.connectedCallback();
+    this._attach();
+    this._releaseKeys = installStopKeys(document, () => void this.dashboard?.client.stop());
+  }
+
+  override disconnectedCallback(): void {
+    super.disconnectedCallback();
+    this._releaseKeys?.();
+    this._releaseKeys = null;
+    this._detach();
+  }
+
+  protected override willUpdate(changed: Map<PropertyKey, unknown>): void {
+    if (changed.has('dashboard') && this.isConnected) this._attach();
+  }
+
+  private _attach(): void {
+    this._detach();
+    const d = this.dashboard;
+    if (!d) return;
+    this._releaseProvider = provideDashboard(this, d);
+    this._unsubscribe = d.client.subscribe((c) => {
+      if (c === 'connection' || c === 'snapshot') {
+        this.dataset.connection = d.client.connection.state;
+        this.dataset.role = d.client.role;
+        this.requestUpdate();
+      }
+    });
+    this.dataset.connection = d.client.connection.state;
+  }
+
+  private _detach(): void {
+    this._releaseProvider?.();
+    this._releaseProvider = null;
+    this._unsubscribe?.();
+    this._unsubscribe = null;
+  }
+
+  override render() {
+    const d = this.dashboard;
+    if (!d) return html``;
+    const conn = d.client.connection;
+    const blocking = conn.state === 'refused' || conn.state === 'no_token' || conn.state === 'waiting';
+    return html`
+      <db-caution-banner></db-caution-banner>
+      <header>
+        <h1>ductbench <small>live bench</small></h1>
+        <db-view-options></db-view-options>
+      </header>
+      ${blocking ? html`<div class="alert" role="alert" data-testid="connection-alert">${conn.reason}</div>` : ''}
+      <div class="layout">
+        <div class="main">
+          <db-readouts></db-readouts>
+          <div class="charts">
+            <db-efficiency-chart></db-efficiency-chart>
+            ${LIVE_CHANNELS.map((ch) => html`<db-live-chart channel=${ch}></db-live-chart>`)}
+          </div>
+        </div>
+        <div class="side">
+          <db-bench-controls></db-bench-controls>
+          <db-bench-status></db-bench-status>
+          <db-identity-card></db-identity-card>
+        </div>
+      </div>
+      <db-stop-button></db-stop-button>
+    `;
+  }
+}
+customElements.define('db-app', DbApp);

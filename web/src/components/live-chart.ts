@@ -1,0 +1,94 @@
+import { html } from 'lit';
+import uPlot from 'uplot';
+import { CHANNEL_UNITS, type SampleChannel } from '../../../server/api/messages.js';
+import { decimateMinMax } from '../data/decimate.js';
+import { thrustFactor } from '../data/units.js';
+import { PlotElement, axisStyle } from './plot-base.js';
+import { SERIES_COLOURS } from './styles.js';
+
+const TITLES: Record<SampleChannel, string> = {
+  thrust: 'Thrust',
+  voltage: 'Voltage',
+  current: 'Current',
+  power: 'Electrical power',
+  rpm: 'Speed',
+  temp: 'Temperature',
+  torque: 'Torque',
+  out: 'Throttle output',
+};
+
+const clock = (s: number) => new Date(s * 1000).toLocaleTimeString(undefined, { hour12: false });
+
+/** Two finite samples further apart than this are drawn with a gap between them (link dropped, paused). */
+const GAP_MS = 2000;
+
+/** One channel against host time over the chosen window, ending at the newest sample. */
+export class DbLiveChart extends PlotElement {
+  static override properties = { channel: { type: String, reflect: true } };
+  declare channel: SampleChannel;
+
+  /** Seconds, read by uPlot's x range callback: the window is fixed, not fitted to the data. */
+  private _range: [number, number] = [0, 1];
+
+  constructor() {
+    super(['snapshot', 'samples']);
+    this.channel = 'thrust';
+  }
+
+  protected override get plotHeight(): number {
+    return 160;
+  }
+
+  private _unit(): { label: string; factor: number } {
+    if (this.channel === 'thrust') {
+      const u = this._dash.prefs?.thrustUnit ?? 'N';
+      return { label: u, factor: thrustFactor(u) };
+    }
+    if (this.channel === 'out') return { label: '%', factor: 100 };
+    return { label: CHANNEL_UNITS[this.channel], factor: 1 };
+  }
+
+  protected override renderHead() {
+    return html`<span class="title">${TITLES[this.channel] ?? this.channel}</span><span class="muted">${this._unit().label}</span>`;
+  }
+
+  protected override makeOptions(width: number, height: number): uPlot.Options {
+    const a = axisStyle(this);
+    const axis = { stroke: a.stroke, grid: { stroke: a.grid, width: 1 }, ticks: { stroke: a.grid, width: 1 } };
+    return {
+      width,
+      height,
+      legend: { show: false },
+      cursor: { drag: { x: false, y: false, setScale: false }, points: { show: false } },
+      scales: { x: { time: true, range: () => this._range } },
+      series: [{}, { stroke: SERIES_COLOURS[this.channel] ?? '#333', width: 1.5, points: { show: false }, spanGaps: false }],
+      // Clock time of the host, to the second: the same clock as the event list.
+      axes: [{ ...axis, values: (_u, splits) => splits.map((s) => clock(s)) }, { ...axis, size: 52 }],
+    };
+  }
+
+  protected override makeData(width: number): { data: uPlot.AlignedData; points: number; last: number | null } {
+    const c = this._dash.client;
+    const windowMs = (this._dash.prefs?.windowS ?? 60) * 1000;
+    if (!c) return { data: [[], []], points: 0, last: null };
+    const ring = c.ring;
+    const xTo = ring.length ? ring.lastT() : Date.now();
+    const xFrom = xTo - windowMs;
+    this._range = [xFrom / 1000, xTo / 1000];
+    const dec = decimateMinMax(ring.t, ring.ch[this.channel], ring, {
+      // One sample before the window so the line enters from the left edge.
+      i0: Math.max(0, ring.lowerBound(xFrom) - 1),
+      i1: ring.length,
+      xFrom,
+      xTo,
+      buckets: width,
+      gapX: GAP_MS,
+      scale: this._unit().factor,
+    });
+    const xs = dec.x.map((v) => v / 1000);
+    let last: number | null = null;
+    for (let i = dec.y.length - 1; i >= 0 && last === null; i--) last = dec.y[i];
+    return { data: [xs, dec.y], points: xs.length, last };
+  }
+}
+customElements.define('db-live-chart', DbLiveChart);

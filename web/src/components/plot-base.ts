@@ -1,0 +1,137 @@
+// What both charts share: a uPlot inside the shadow root, sized to the element by a ResizeObserver, redrawn
+// at most once per animation frame however many messages arrive, rebuilt when its options change (units),
+// and released when the element leaves the page. uPlot's stylesheet is adopted into each shadow root
+// because page styles do not reach inside one.
+import { LitElement, css, html, unsafeCSS, type PropertyValues } from 'lit';
+import uPlot from 'uplot';
+import uplotCss from 'uplot/dist/uPlot.min.css?inline';
+import { DashboardController } from '../data/context.js';
+import { FrameCoalescer } from '../data/frame.js';
+import type { ClientChange } from '../data/client.js';
+
+export abstract class PlotElement extends LitElement {
+  static override styles = [
+    unsafeCSS(uplotCss),
+    css`
+      :host {
+        display: block;
+        background: var(--db-panel);
+        border: 1px solid var(--db-line);
+        border-radius: 8px;
+        padding: 0.5rem 0.6rem 0.3rem;
+        min-width: 0;
+      }
+      .head {
+        display: flex;
+        justify-content: space-between;
+        align-items: baseline;
+        gap: 0.5rem;
+        font-size: 0.8rem;
+      }
+      .title {
+        font-weight: 650;
+        letter-spacing: 0.06em;
+        text-transform: uppercase;
+        color: var(--db-muted);
+      }
+      .plot {
+        width: 100%;
+        min-height: var(--plot-height, 170px);
+      }
+      .uplot {
+        font-family: inherit;
+      }
+      .u-legend {
+        font-size: 0.75rem;
+      }
+    `,
+  ];
+
+  protected readonly _dash: DashboardController;
+  protected _plot: uPlot | null = null;
+  private readonly _frame = new FrameCoalescer(() => this._draw());
+  private _resize: ResizeObserver | null = null;
+  private _width = 0;
+  private _draws = 0;
+
+  constructor(changes: readonly ClientChange[]) {
+    super();
+    this._dash = new DashboardController(this, changes, (c) => {
+      if (c === 'prefs') return this._rebuild();
+      if (c !== 'samples') this.requestUpdate(); // the head may describe the snapshot or extras
+      this._frame.schedule();
+    });
+  }
+
+  /** Plot height in CSS pixels. */
+  protected abstract get plotHeight(): number;
+  protected abstract makeOptions(width: number, height: number): uPlot.Options;
+  /** Builds the data for the current width; also returns what the test hooks report. */
+  protected abstract makeData(width: number): { data: uPlot.AlignedData; points: number; last: number | null };
+  protected abstract renderHead(): unknown;
+
+  override render() {
+    return html`<div class="head">${this.renderHead()}</div>
+      <div class="plot" style="--plot-height:${this.plotHeight}px"></div>`;
+  }
+
+  protected override firstUpdated(_changed: PropertyValues): void {
+    const box = this.renderRoot.querySelector('.plot') as HTMLElement;
+    this._resize = new ResizeObserver(() => {
+      const w = Math.floor(box.clientWidth);
+      if (w > 0 && w !== this._width) {
+        this._width = w;
+        if (this._plot) this._plot.setSize({ width: w, height: this.plotHeight });
+        else this._rebuild();
+        this._frame.schedule();
+      }
+    });
+    this._resize.observe(box);
+  }
+
+  override disconnectedCallback(): void {
+    super.disconnectedCallback();
+    this._frame.cancel();
+    this._resize?.disconnect();
+    this._resize = null;
+    this._plot?.destroy();
+    this._plot = null;
+    this._width = 0;
+  }
+
+  override connectedCallback(): void {
+    super.connectedCallback();
+    // Re-attached after a move: observe again (firstUpdated runs only once).
+    if (this.hasUpdated && !this._resize) this.firstUpdated(new Map());
+  }
+
+  protected _rebuild(): void {
+    this.requestUpdate(); // the head may show units too
+    const box = this.renderRoot.querySelector('.plot') as HTMLElement | null;
+    if (!box || this._width <= 0) return;
+    this._plot?.destroy();
+    const opts = this.makeOptions(this._width, this.plotHeight);
+    this._plot = new uPlot(opts, this.makeData(this._width).data, box);
+    this._frame.schedule();
+  }
+
+  private _draw(): void {
+    if (!this._plot) return;
+    const { data, points, last } = this.makeData(this._width);
+    this._plot.setData(data);
+    this._draws++;
+    // Hooks for tests and for anyone debugging in the inspector: what was last handed to uPlot.
+    this.setAttribute('data-points', String(points));
+    this.setAttribute('data-draws', String(this._draws));
+    this.setAttribute('data-last', last === null ? '' : String(last));
+  }
+}
+
+/** Axis and grid colours from the page's custom properties, read once per plot build. */
+export function axisStyle(el: Element): { stroke: string; grid: string } {
+  const cs = getComputedStyle(el);
+  return {
+    stroke: cs.getPropertyValue('--db-muted').trim() || '#555',
+    grid: cs.getPropertyValue('--db-line').trim() || '#ddd',
+  };
+}

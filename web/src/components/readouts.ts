@@ -1,0 +1,139 @@
+import { LitElement, css, html } from 'lit';
+import type { SampleChannel } from '../../../server/api/messages.js';
+import { DashboardController } from '../data/context.js';
+import { MIN_EFFICIENCY_POWER_W } from '../data/decimate.js';
+import { GRAM_FORCE_N, efficiencyUnit, thrustDecimals, thrustFactor } from '../data/units.js';
+import { SERIES_COLOURS } from './styles.js';
+
+/** A value older than this (against the newest sample) is greyed: that sensor has stopped reporting. */
+const STALE_MS = 2000;
+/** Numbers that change sixty times a second cannot be read; ten is plenty. */
+const RENDER_EVERY_MS = 100;
+
+interface Tile {
+  key: string;
+  label: string;
+  unit: string;
+  value: number;
+  decimals: number;
+  stale: boolean;
+  colour: string;
+}
+
+/** Big live numbers: the latest value of each channel. */
+export class DbReadouts extends LitElement {
+  static override styles = css`
+    :host {
+      display: block;
+    }
+    .grid {
+      display: grid;
+      grid-template-columns: repeat(auto-fill, minmax(9.5rem, 1fr));
+      gap: 0.6rem;
+    }
+    .tile {
+      background: var(--db-panel);
+      border: 1px solid var(--db-line);
+      border-left: 5px solid var(--tile-colour);
+      border-radius: 8px;
+      padding: 0.45rem 0.7rem 0.5rem;
+      min-width: 0;
+    }
+    .label {
+      font-size: 0.75rem;
+      font-weight: 650;
+      letter-spacing: 0.06em;
+      text-transform: uppercase;
+      color: var(--db-muted);
+    }
+    .value {
+      font-size: 2rem;
+      font-weight: 650;
+      font-variant-numeric: tabular-nums;
+      line-height: 1.15;
+      white-space: nowrap;
+      overflow: hidden;
+      text-overflow: ellipsis;
+    }
+    .unit {
+      font-size: 0.95rem;
+      font-weight: 500;
+      color: var(--db-muted);
+      margin-left: 0.2rem;
+    }
+    .stale .value {
+      color: var(--db-muted);
+    }
+  `;
+
+  private readonly _dash = new DashboardController(this, ['snapshot', 'samples', 'connection'], () => this._soon());
+  private _timer: ReturnType<typeof setTimeout> | null = null;
+
+  private _soon(): void {
+    if (this._timer !== null) return;
+    this._timer = setTimeout(() => {
+      this._timer = null;
+      this.requestUpdate();
+    }, RENDER_EVERY_MS);
+  }
+
+  override disconnectedCallback(): void {
+    super.disconnectedCallback();
+    if (this._timer !== null) clearTimeout(this._timer);
+    this._timer = null;
+  }
+
+  private _tiles(): Tile[] {
+    const c = this._dash.client;
+    const unit = this._dash.prefs?.thrustUnit ?? 'N';
+    if (!c) return [];
+    const ring = c.ring;
+    const newest = ring.lastT();
+    const v = (ch: SampleChannel) => ring.latest[ch];
+    const stale = (ch: SampleChannel) => !(ring.latestT[ch] >= newest - STALE_MS) || c.connection.state !== 'live';
+    const tile = (ch: SampleChannel, label: string, u: string, decimals: number, factor = 1): Tile => ({
+      key: ch,
+      label,
+      unit: u,
+      value: v(ch) * factor,
+      decimals,
+      stale: stale(ch),
+      colour: SERIES_COLOURS[ch],
+    });
+    const power = v('power');
+    const eff = power >= MIN_EFFICIENCY_POWER_W ? (v('thrust') / GRAM_FORCE_N / power) * (unit === 'gf' ? 1 : GRAM_FORCE_N) : NaN;
+    const tiles: Tile[] = [
+      tile('thrust', 'Thrust', unit, thrustDecimals(unit), thrustFactor(unit)),
+      tile('voltage', 'Voltage', 'V', 2),
+      tile('current', 'Current', 'A', 2),
+      tile('power', 'Power', 'W', 1),
+      {
+        key: 'efficiency',
+        label: 'Thrust / power',
+        unit: efficiencyUnit(unit),
+        value: eff,
+        decimals: unit === 'gf' ? 2 : 3,
+        stale: stale('thrust') || stale('power'),
+        colour: '#1d6f7a',
+      },
+      tile('rpm', 'Speed', 'rpm', 0),
+      tile('temp', 'Temperature', '°C', 1),
+      tile('out', 'Throttle out', '%', 1, 100),
+    ];
+    // Torque only where a torque cell is fitted.
+    if (Number.isFinite(v('torque'))) tiles.push(tile('torque', 'Torque', 'N·m', 4));
+    return tiles;
+  }
+
+  override render() {
+    return html`<div class="grid">
+      ${this._tiles().map(
+        (t) => html`<div class="tile ${t.stale ? 'stale' : ''}" style="--tile-colour:${t.colour}" data-readout=${t.key}>
+          <div class="label">${t.label}</div>
+          <div class="value" data-testid="readout-${t.key}">${Number.isFinite(t.value) ? t.value.toFixed(t.decimals) : '—'}<span class="unit">${t.unit}</span></div>
+        </div>`,
+      )}
+    </div>`;
+  }
+}
+customElements.define('db-readouts', DbReadouts);
