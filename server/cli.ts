@@ -103,7 +103,11 @@ async function serve(p: Parsed): Promise<number> {
   if (host !== '127.0.0.1' && host !== 'localhost' && host !== '::1') {
     process.stderr.write(`ductbench: WARNING: listening on ${host}: anyone who can reach this address and has the token can drive the bench\n`);
   }
+  // Until the device answers, keep the daemon's log to ourselves: a failed start is reported as one line.
+  let early: string[] | null = [];
+  const log = (line: string) => (early ? early.push(line) : process.stderr.write(line + '\n'));
   const daemon = await startDaemon({
+    log,
     source,
     host,
     httpPort: (o['http-port'] as number | undefined) ?? DEFAULT_HTTP_PORT,
@@ -130,6 +134,8 @@ async function serve(p: Parsed): Promise<number> {
     process.stderr.write(`ductbench: ${err ? err.message : 'device did not connect'}\n`);
     return EXIT.failure;
   }
+  for (const line of early) process.stderr.write(line + '\n');
+  early = null;
   const id = daemon.link.identity;
   process.stdout.write(`ductbench ${VERSION}: bench on ${daemon.link.view().source}${id ? ` (${id.firmware} ${id.firmwareVersion})` : ''}\n`);
   process.stdout.write(`dashboard: ${daemon.url}\n`);

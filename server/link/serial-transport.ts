@@ -20,7 +20,8 @@ export class SerialTransport implements Transport {
       const port = new SerialPort({ path: this.path, baudRate: this.baudRate, autoOpen: false, hupcl: false });
       port.open((err) => {
         if (err) {
-          reject(new Error(err.message.replace(/^Error: /, '')));
+          // serialport says "Error: No such file or directory, cannot open PATH"; the link adds the path itself.
+          reject(new Error(err.message.replace(/^Error: /, '').replace(/, cannot open .*$/, '')));
           return;
         }
         this.port = port;
