@@ -96,6 +96,8 @@ export class VirtualBench {
   private garble: { d2h: number; h2d: number } = { d2h: 0, h2d: 0 };
   private readonly linkListeners = new Set<BenchLinkListener>();
   private readonly eventListeners = new Set<(e: FirmwareEvent) => void>();
+  private readonly errorListeners = new Set<(e: Error) => void>();
+  private dead: Error | null = null;
 
   constructor(opts: VirtualBenchOptions = {}) {
     this.rig = opts.rig ?? DEFAULT_OPEN_RIG;
@@ -158,6 +160,12 @@ export class VirtualBench {
     return () => this.eventListeners.delete(fn);
   }
 
+  /** Listens for the real-time loop failing (a simulator bug); the bench stays stopped. Returns an unsubscribe. */
+  onError(fn: (e: Error) => void): () => void {
+    this.errorListeners.add(fn);
+    return () => this.errorListeners.delete(fn);
+  }
+
   /** Listens to unplug/replug (fault 'unplug'). Returns an unsubscribe. */
   onLink(fn: BenchLinkListener): () => void {
     this.linkListeners.add(fn);
@@ -192,6 +200,7 @@ export class VirtualBench {
    */
   startRealtime(): void {
     if (this.timer) return;
+    if (this.dead) throw this.dead;
     if (this.pausedAtMs !== null) {
       this.advance(Math.min(MAX_PAUSE_CATCHUP_MS, performance.now() - this.pausedAtMs), { silent: true });
       this.pausedAtMs = null;
@@ -201,7 +210,15 @@ export class VirtualBench {
       const now = performance.now();
       const dt = Math.min(MAX_REALTIME_CATCHUP_MS, now - last);
       last = now;
-      this.advance(dt);
+      try {
+        this.advance(dt);
+      } catch (err) {
+        // A simulator bug must not take the daemon down from inside a timer: the "board" dies instead, and
+        // whoever listens (the transport) reports the link as closed with the error.
+        this.stopRealtime();
+        this.dead = err instanceof Error ? err : new Error(String(err));
+        for (const l of this.errorListeners) l(this.dead);
+      }
     }, this.intervalMs);
     // The bench never keeps a process alive by itself; whoever owns the transport does.
     this.timer.unref?.();

@@ -111,6 +111,11 @@ export async function simMain(args: SimMainArgs): Promise<void> {
     };
     process.on('SIGINT', done);
     process.on('SIGTERM', done);
+    sim.bench.onError((e) => {
+      process.stderr.write(`virtual bench stopped: ${e.message}\n`);
+      process.exitCode = 1;
+      done();
+    });
   });
   await sim.close();
 }

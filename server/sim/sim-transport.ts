@@ -20,6 +20,7 @@ export class SimTransport implements Transport {
   readonly bench: VirtualBench;
   private handlers: TransportHandlers | null = null;
   private offLink: (() => void) | null = null;
+  private offError: (() => void) | null = null;
 
   constructor(opts: SimTransportOptions = {}) {
     const { bench, ...benchOpts } = opts;
@@ -44,6 +45,7 @@ export class SimTransport implements Transport {
     this.offLink = this.bench.onLink((plugged) => {
       if (!plugged) this.lost(new Error('virtual bench unplugged'));
     });
+    this.offError = this.bench.onError((e) => this.lost(new Error(`virtual bench failed: ${e.message}`)));
   }
 
   write(data: string): Promise<void> {
@@ -74,6 +76,8 @@ export class SimTransport implements Transport {
     this.handlers = null;
     this.offLink?.();
     this.offLink = null;
+    this.offError?.();
+    this.offError = null;
     this.bench.setOutput(null);
     // Paused, not powered off: the next open lives through the gap (see VirtualBench.startRealtime).
     this.bench.stopRealtime();
