@@ -153,13 +153,15 @@ describe('decimateMinMax', () => {
 });
 
 describe('efficiencyPoints and thinScatter', () => {
-  it('pairs thrust and power from different rows while both are fresh, in gram-force per watt', () => {
+  it('pairs each thrust sample with the mean power since the one before, in gram-force per watt', () => {
     const b = batch([
-      { t: 0, thrust: 2 },
-      { t: 10, power: 50 },
-      { t: 20, thrust: 2.2 },
-      { t: 600, thrust: 2.4 }, // power is 590 ms old: not paired
-      { t: 610, power: 0.5 }, // below the 1 W floor
+      { t: 0, power: 40 },
+      { t: 5, power: 60 },
+      { t: 10, thrust: 2 }, // mean of 40 and 60 W
+      { t: 20, thrust: 2.2 }, // no new power: the 60 W sample is 15 ms old, still fresh
+      { t: 600, thrust: 2.4 }, // power now 595 ms old: no point
+      { t: 610, power: 0.5 },
+      { t: 620, thrust: 2.5 }, // below the 1 W floor: no point
     ]);
     const ring = new SampleRing(10);
     ring.append(b);
@@ -167,6 +169,21 @@ describe('efficiencyPoints and thinScatter', () => {
     expect(p.thrustN.map((v) => +v.toFixed(4))).toEqual([2, 2.2]);
     // 2 N = 203.94 gf; over 50 W that is 4.079 gf/W.
     expect(p.gramsPerWatt[0]).toBeCloseTo(2 / GRAM_FORCE_N / 50, 4);
+    expect(p.gramsPerWatt[1]).toBeCloseTo(2.2 / GRAM_FORCE_N / 60, 4);
+  });
+
+  it('leaves out rows where the device reports the throttle output at zero', () => {
+    const b = batch([
+      { t: 0, power: 40 },
+      { t: 10, thrust: 2 },
+      { t: 20, power: 40 },
+      { t: 30, thrust: 1.5 },
+    ]);
+    b.out = [0.3, null, 0, null]; // output cut between the two thrust samples
+    const ring = new SampleRing(10);
+    ring.append(b);
+    const p = efficiencyPoints(ring.t, ring.ch.thrust, ring.ch.power, ring, 0, ring.length, ring.ch.out);
+    expect(p.thrustN).toEqual([2]);
   });
 
   it('keeps one point per cell, the newest, in input order', () => {

@@ -86,7 +86,11 @@ class MockDaemon {
     const types: Record<string, string> = { '.html': 'text/html', '.js': 'text/javascript', '.css': 'text/css' };
     try {
       const body = await readFile(join(this.webDir, rel));
-      res.writeHead(200, { 'content-type': types[extname(rel)] ?? 'application/octet-stream' });
+      res.writeHead(200, {
+        'content-type': types[extname(rel)] ?? 'application/octet-stream',
+        // The daemon's policy (server/http/server.ts): the page must work under it, with nothing fetched elsewhere.
+        'content-security-policy': "default-src 'self'; connect-src 'self'; img-src 'self' data: blob:; style-src 'self' 'unsafe-inline'; frame-ancestors 'none'",
+      });
       res.end(body);
     } catch {
       res.writeHead(404).end();
@@ -297,7 +301,8 @@ describe('dashboard against a mock daemon', () => {
       // Readout text changes over time.
       const readout = page.getByTestId('readout-thrust');
       const text1 = await readout.textContent();
-      expect(text1).toMatch(/^\d+\.\d{3}N$/);
+      expect(text1).toMatch(/^\d+\.\d{3}$/);
+      await expect(readout.getAttribute('data-unit')).resolves.toBe('N');
       await eventually(() => readout.textContent(), (t) => t !== text1, 'the thrust readout to change');
 
       // The efficiency scatter gets points, and the model overlay is drawn from extras.prediction.
@@ -306,8 +311,10 @@ describe('dashboard against a mock daemon', () => {
 
       // Switching to gram-force converts the readout (1 gf = 9.80665e-3 N) and is remembered.
       await page.getByTestId('unit-gf').click();
-      await eventually(() => readout.textContent(), (t) => /^\d+\.\dgf$/.test(t ?? ''), 'the readout in gf');
-      const gf = Number((await readout.textContent())!.replace('gf', ''));
+      await eventually(() => readout.getAttribute('data-unit'), (u) => u === 'gf', 'the readout in gf');
+      const gfText = (await readout.textContent()) ?? '';
+      expect(gfText).toMatch(/^\d+\.\d$/);
+      const gf = Number(gfText);
       expect(gf).toBeGreaterThan(0.9 / GF); // the mock's thrust stays between 1 and 5 N
       expect(gf).toBeLessThan(5.1 / GF);
       expect(await page.evaluate(() => localStorage.getItem('ductbench.prefs.v1'))).toContain('"gf"');
@@ -407,6 +414,29 @@ describe('dashboard against a mock daemon', () => {
     } finally {
       await context.close();
       daemon.nextRole = 'controller';
+    }
+  }, 120_000);
+
+  it('keeps the stop button and the caution in view on a phone-sized window at any scroll position', async () => {
+    daemon.nextRole = 'controller';
+    const { page, context, errors } = await openDashboard(browser, `${base}/?token=${TOKEN}`, { viewport: { width: 390, height: 800 } });
+    try {
+      const inView = async (sel: string) => {
+        const box = await page.locator(sel).first().boundingBox();
+        return box !== null && box.y >= 0 && box.y + box.height <= 800 && box.x >= 0 && box.x + box.width <= 390;
+      };
+      const height = await page.evaluate(() => document.documentElement.scrollHeight);
+      expect(height).toBeGreaterThan(1600); // the panels stack in one column: there is something to scroll
+      for (const y of [0, height / 2, height]) {
+        await page.evaluate((to) => window.scrollTo(0, to), y);
+        await eventually(() => inView('[data-testid="stop"]'), (v) => v, `stop button in view at scroll ${y}`);
+        await eventually(() => inView('db-caution-banner'), (v) => v, `caution banner in view at scroll ${y}`);
+      }
+      await page.evaluate((to) => window.scrollTo(0, to), height / 3);
+      await page.screenshot({ path: join(ARTIFACTS_DIR, 'dashboard-mock-narrow.png') });
+      expect(errors).toEqual([]);
+    } finally {
+      await context.close();
     }
   }, 120_000);
 

@@ -26,6 +26,23 @@ export class DbCautionBanner extends LitElement {
       content: '▸ ';
       opacity: 0.7;
     }
+    /* A phone has little height to spare: let the items run on as one paragraph in smaller type. */
+    @media (max-width: 640px) {
+      :host {
+        font-size: 0.72rem;
+        line-height: 1.3;
+      }
+      div {
+        display: block;
+        padding: 0.3rem 0.6rem;
+      }
+      span::before {
+        content: ' · ';
+      }
+      strong + span::before {
+        content: ' ';
+      }
+    }
   `;
 
   override render() {

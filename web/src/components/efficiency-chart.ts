@@ -12,7 +12,7 @@ const IDEAL_DUCTED = '#b4531b';
 
 /**
  * Thrust per watt against thrust: the recent measured points as dots (the chosen time window, thinned to one
- * per pixel cell), and, when the daemon provides extras.prediction (see data/prediction.ts), the model's
+ * per pixel cell; idle and coasting rows left out, see efficiencyPoints), and, when the daemon provides extras.prediction (see data/prediction.ts), the model's
  * curve and the ideal open and ducted lines on top.
  */
 export class DbEfficiencyChart extends PlotElement {
@@ -90,7 +90,7 @@ export class DbEfficiencyChart extends PlotElement {
       const xTo = ring.lastT();
       const windowMs = (this._dash.prefs?.windowS ?? 60) * 1000;
       const i0 = ring.length ? ring.lowerBound(xTo - windowMs) : 0;
-      const pts = efficiencyPoints(ring.t, ring.ch.thrust, ring.ch.power, ring, i0, ring.length);
+      const pts = efficiencyPoints(ring.t, ring.ch.thrust, ring.ch.power, ring, i0, ring.length, ring.ch.out);
       const xs = pts.thrustN.map((v) => v * u.xf);
       const ys = pts.gramsPerWatt.map((v) => v * u.yf);
       const thin = thinScatter(xs, ys, width, this.plotHeight);

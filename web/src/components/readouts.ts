@@ -40,6 +40,9 @@ export class DbReadouts extends LitElement {
       min-width: 0;
     }
     .label {
+      display: flex;
+      justify-content: space-between;
+      gap: 0.4rem;
       font-size: 0.75rem;
       font-weight: 650;
       letter-spacing: 0.06em;
@@ -56,10 +59,9 @@ export class DbReadouts extends LitElement {
       text-overflow: ellipsis;
     }
     .unit {
-      font-size: 0.95rem;
-      font-weight: 500;
-      color: var(--db-muted);
-      margin-left: 0.2rem;
+      text-transform: none;
+      letter-spacing: 0;
+      font-weight: 600;
     }
     .stale .value {
       color: var(--db-muted);
@@ -129,8 +131,8 @@ export class DbReadouts extends LitElement {
     return html`<div class="grid">
       ${this._tiles().map(
         (t) => html`<div class="tile ${t.stale ? 'stale' : ''}" style="--tile-colour:${t.colour}" data-readout=${t.key}>
-          <div class="label">${t.label}</div>
-          <div class="value" data-testid="readout-${t.key}">${Number.isFinite(t.value) ? t.value.toFixed(t.decimals) : '—'}<span class="unit">${t.unit}</span></div>
+          <div class="label"><span>${t.label}</span><span class="unit">${t.unit}</span></div>
+          <div class="value" data-testid="readout-${t.key}" data-unit=${t.unit}>${Number.isFinite(t.value) ? t.value.toFixed(t.decimals) : '—'}</div>
         </div>`,
       )}
     </div>`;

@@ -78,6 +78,9 @@ export class DbStopButton extends LitElement {
       .big {
         font-size: 1.6rem;
       }
+      .status.hint {
+        display: none;
+      }
     }
   `;
 
@@ -98,7 +101,7 @@ export class DbStopButton extends LitElement {
     if (!last || last.type !== 'stop') {
       return c && c.connection.state !== 'live' && c.connection.state !== 'syncing'
         ? html`<div class="status bad">not connected: use the hard-wired power cut</div>`
-        : html`<div class="status">Space or Esc also stop</div>`;
+        : html`<div class="status hint">Space or Esc also stop</div>`;
     }
     if (last.result === null) return html`<div class="status">stop sent…</div>`;
     if (last.result.ok) return html`<div class="status">stop confirmed</div>`;

@@ -117,10 +117,17 @@ export interface EfficiencyPoints {
   gramsPerWatt: number[];
 }
 
+/** Throttle output below which the propeller is taken as idle or spinning down: no efficiency point. */
+export const MIN_EFFICIENCY_OUTPUT = 0.01;
+
 /**
- * Pairs thrust with electrical power and returns thrust-per-watt points (gram-force per watt). The two
- * channels may arrive on different rows, so the latest value of each is held for up to holdMs and a point is
- * made whenever one of them updates while the other is still fresh.
+ * Pairs thrust with electrical power and returns thrust-per-watt points (gram-force per watt), one per thrust
+ * sample. The channels come at different rates (a load cell at tens of hertz, power at hundreds), so each
+ * thrust sample is paired with the mean of the power samples since the previous thrust sample (which also
+ * smooths the ESC's ripple), or with the last power sample when none came in between and it is at most
+ * holdMs old. Pairing on every power sample instead would draw vertical stripes of one stale thrust value.
+ * Rows where the device reports an output below MIN_EFFICIENCY_OUTPUT are skipped: an idle or coasting
+ * propeller's figure is noise over almost nothing.
  */
 export function efficiencyPoints(
   t: ArrayLike<number>,
@@ -129,37 +136,41 @@ export function efficiencyPoints(
   win: RingWindow,
   i0: number,
   i1: number,
+  out?: ArrayLike<number>,
   holdMs = 250,
   minPowerW = MIN_EFFICIENCY_POWER_W,
 ): EfficiencyPoints {
-  const out: EfficiencyPoints = { thrustN: [], gramsPerWatt: [] };
+  const res: EfficiencyPoints = { thrustN: [], gramsPerWatt: [] };
   const a = Math.max(0, Math.min(i0, win.length));
   const b = Math.max(a, Math.min(i1, win.length));
   const cap = win.capacity;
-  let lastT = NaN, lastTt = -Infinity, lastP = NaN, lastPt = -Infinity;
+  let lastP = NaN, lastPt = -Infinity, sumP = 0, nP = 0, lastOut = NaN;
   let p = win.start + a;
   if (p >= cap) p -= cap;
   for (let i = a; i < b; i++, p = p + 1 === cap ? 0 : p + 1) {
     const tv = t[p];
-    const th = thrust[p];
     const pw = power[p];
-    let changed = false;
-    if (th === th) {
-      lastT = th;
-      lastTt = tv;
-      changed = true;
+    if (out) {
+      const o = out[p];
+      if (o === o) lastOut = o;
     }
     if (pw === pw) {
       lastP = pw;
       lastPt = tv;
-      changed = true;
+      sumP += pw;
+      nP++;
     }
-    if (!changed || tv - lastTt > holdMs || tv - lastPt > holdMs) continue;
-    if (!(lastP >= minPowerW)) continue;
-    out.thrustN.push(lastT);
-    out.gramsPerWatt.push(lastT / GRAM_FORCE_N / lastP);
+    const th = thrust[p];
+    if (th !== th) continue;
+    const pUsed = nP > 0 ? sumP / nP : tv - lastPt <= holdMs ? lastP : NaN;
+    sumP = 0;
+    nP = 0;
+    if (!(pUsed >= minPowerW)) continue;
+    if (lastOut < MIN_EFFICIENCY_OUTPUT) continue; // NaN (no output channel) passes
+    res.thrustN.push(th);
+    res.gramsPerWatt.push(th / GRAM_FORCE_N / pUsed);
   }
-  return out;
+  return res;
 }
 
 export interface Thinned {
