@@ -7,7 +7,7 @@ import type { IncomingMessage } from 'node:http';
 import type { WebSocket } from 'ws';
 import { API_VERSION, emptyBatch, type BenchEvent, type ClientMessage, type SampleBatch, type Snapshot } from './api/messages.js';
 import { BenchController, ControlError } from './bench/controller.js';
-import { SampleRing, appendToBatch } from './bench/history.js';
+import { SampleRing, appendToBatch, thinBatch } from './bench/history.js';
 import { TelemetryPipeline, type Sample } from './bench/telemetry.js';
 import { startHttp, type HttpSurface } from './http/server.js';
 import { Hub, type Client } from './http/hub.js';
@@ -24,6 +24,8 @@ const HISTORY_CAPACITY = 200_000;
 const SNAPSHOT_WINDOW_MS = 120_000;
 const SNAPSHOT_MAX_POINTS = 6000;
 const EVENT_LOG_CAP = 200;
+/** Rows per live batch at most (5 kHz at 50 ms batches): beyond that a chart gains nothing and JSON costs a lot. */
+const LIVE_ROWS_PER_BATCH = 250;
 
 export type DeviceSource =
   | { kind: 'sim'; rigFile?: string; seed?: number }
@@ -169,7 +171,7 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     if (pending.t.length === 0) return;
     const batch = pending;
     pending = emptyBatch();
-    hub.broadcast({ type: 'samples', batch });
+    hub.broadcast({ type: 'samples', batch: thinBatch(batch, LIVE_ROWS_PER_BATCH) });
   }, BATCH_INTERVAL_MS);
   // Counters move all the time; send them once a second rather than on every line.
   const linkTick = setInterval(() => hub.broadcast({ type: 'link', link: link.view() }), 1000);

@@ -54,3 +54,20 @@ describe('sample ring', () => {
     expect(b.t.length).toBeGreaterThanOrEqual(90);
   });
 });
+
+describe('live batch thinning', () => {
+  it('keeps every sparse channel and the last row, and never exceeds the row cap', async () => {
+    const { thinBatch, appendToBatch } = await import('../server/bench/history.js');
+    const { emptyBatch } = await import('../server/api/messages.js');
+    const b = emptyBatch();
+    // 20 kHz electrical rows with a thrust value only every 250th row (80 Hz)
+    for (let i = 0; i < 1000; i++) {
+      appendToBatch(b, { t: i, dt: i / 20000, thrust: i % 250 === 7 ? i : null, voltage: 16, current: 1, power: 16, rpm: null, temp: null, torque: null, out: 0.5 });
+    }
+    const thin = thinBatch(b, 50);
+    expect(thin.t.length).toBe(50);
+    expect(thin.t[49]).toBe(999);
+    expect(thin.thrust.filter((x) => x !== null)).toEqual([7, 257, 507, 757]);
+    expect(thinBatch(b, 5000)).toBe(b); // under the cap: untouched
+  });
+});

@@ -65,3 +65,33 @@ export function appendToBatch(b: SampleBatch, s: Sample): void {
   b.dt.push(s.dt);
   for (const k of SAMPLE_KEYS) b[k].push(s[k]);
 }
+
+/**
+ * Thins a broadcast batch to at most maxRows rows for the live view. Rows are grouped into maxRows buckets; each
+ * bucket becomes one row holding, per channel, the last value sampled in it. Unlike keeping every k-th row,
+ * this never loses a slow channel (thrust at 80 Hz between 20 kHz electrical rows). The store keeps every row;
+ * this is only what eyes on a chart need.
+ */
+export function thinBatch(b: SampleBatch, maxRows: number): SampleBatch {
+  const n = b.t.length;
+  if (n <= maxRows) return b;
+  const out = emptyBatch();
+  for (let k = 0; k < maxRows; k++) {
+    const lo = Math.floor((k * n) / maxRows);
+    const hi = Math.floor(((k + 1) * n) / maxRows); // exclusive
+    out.t.push(b.t[hi - 1]);
+    out.dt.push(b.dt[hi - 1]);
+    for (const key of SAMPLE_KEYS) {
+      const col = b[key];
+      let v: number | null = null;
+      for (let i = hi - 1; i >= lo; i--) {
+        if (col[i] !== null) {
+          v = col[i];
+          break;
+        }
+      }
+      out[key].push(v);
+    }
+  }
+  return out;
+}

@@ -26,8 +26,9 @@ export class TypedEmitter<Events extends { [K in keyof Events]: unknown }> {
   protected emit<K extends keyof Events>(event: K, payload: Events[K]): void {
     const set = this.listeners[event];
     if (!set) return;
-    // A listener that throws must not stop the others (one of them may be the safety path).
-    for (const fn of [...set]) {
+    // A listener that throws must not stop the others (one of them may be the safety path). Iterating the
+    // Set itself (no copy: this is on the per-line path) is safe when a listener removes itself.
+    for (const fn of set) {
       try {
         fn(payload);
       } catch (err) {
