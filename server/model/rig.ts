@@ -198,7 +198,8 @@ function parseDuct(x: unknown, propDiameter: number): DuctSpec | null {
   if (lip > bore / 2) throw new RigError(`${path}.inlet_lip_radius_m`, `must not exceed half the bore (${bore / 2})`);
   const exit = positive(`${path}.exit_diameter_m`, numberAt(o, path, 'exit_diameter_m', true));
   const sigma = (exit / propDiameter) ** 2;
-  if (sigma < SIGMA_MIN || sigma > SIGMA_MAX) {
+  // A relative slack of 1e-9 lets an exit computed as D * sqrt(sigma) at the range ends through round-off.
+  if (sigma < SIGMA_MIN * (1 - 1e-9) || sigma > SIGMA_MAX * (1 + 1e-9)) {
     throw new RigError(
       `${path}.exit_diameter_m`,
       `exit-area ratio sigma = (exit / propeller diameter)^2 must be within ${SIGMA_MIN}..${SIGMA_MAX} (got ${sigma.toFixed(3)})`,
