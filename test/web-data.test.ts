@@ -5,7 +5,7 @@ import { afterEach, beforeEach, describe, expect, it, vi } from 'vitest';
 import fc from 'fast-check';
 import { API_VERSION, emptyBatch, type BenchView, type LinkView, type SampleBatch, type ServerMessage, type Snapshot } from '../server/api/messages.js';
 import { SampleRing } from '../web/src/data/ring.js';
-import { decimateMinMax, efficiencyPoints, linearWindow, thinScatter } from '../web/src/data/decimate.js';
+import { LiveDecimator, bucketWidth, decimateMinMax, efficiencyPoints, linearWindow, thinScatter } from '../web/src/data/decimate.js';
 import { FrameCoalescer } from '../web/src/data/frame.js';
 import { backoffDelay, closeReason, initialConnection, nextConnection, CLOSE_TOKEN_REFUSED } from '../web/src/data/connection.js';
 import { BenchClient, type SocketLike } from '../web/src/data/client.js';
@@ -149,6 +149,77 @@ describe('decimateMinMax', () => {
       ),
       { numRuns: 150 },
     );
+  });
+});
+
+describe('LiveDecimator', () => {
+  it('property: after any sequence of appends it equals the stateless decimation from its first kept bucket', () => {
+    fc.assert(
+      fc.property(
+        fc.array(
+          fc.record({
+            n: fc.integer({ min: 0, max: 400 }),
+            step: fc.integer({ min: 1, max: 20 }),
+            pause: fc.integer({ min: 0, max: 4000 }), // time jump before the batch: sometimes a gap
+            nanEvery: fc.integer({ min: 0, max: 5 }),
+          }),
+          { minLength: 1, maxLength: 25 },
+        ),
+        fc.integer({ min: 20, max: 400 }),
+        fc.constantFrom(1000, 3000, 10000),
+        (batches, width, windowMs) => {
+          const ring = new SampleRing(3000); // small, so it also wraps and overwrites
+          const live = new LiveDecimator();
+          let t = 1_000_000;
+          let seed = 1;
+          for (const b of batches) {
+            t += b.pause;
+            const rows = Array.from({ length: b.n }, (_, i) => {
+              t += b.step;
+              seed = (seed * 16807) % 2147483647;
+              const thrust = b.nanEvery > 0 && i % b.nanEvery === 0 ? null : (seed / 2147483647) * 10 - 5;
+              return { t, thrust };
+            });
+            ring.append(batch(rows));
+            const xTo = ring.lastT();
+            const xFrom = xTo - windowMs;
+            const got = live.update(ring, ring.ch.thrust, xFrom, xTo, width, 2000, 2);
+            const bw = bucketWidth(xFrom, xTo, width);
+            const i0 = Math.max(0, Math.min(live.firstIndex(ring, xFrom, bw), ring.length));
+            const want = decimateMinMax(ring.t, ring.ch.thrust, ring, { i0, i1: ring.length, xFrom, xTo, buckets: width, gapX: 2000, scale: 2 });
+            expect(got).toEqual(want);
+          }
+        },
+      ),
+      {
+        numRuns: 120,
+        // Found by an earlier run: a sample exactly on a bucket edge, where x >= k * bw and floor(x / bw) < k.
+        examples: [
+          [
+            [
+              { n: 280, step: 19, pause: 3358, nanEvery: 0 }, { n: 264, step: 10, pause: 561, nanEvery: 0 }, { n: 290, step: 16, pause: 2294, nanEvery: 0 },
+              { n: 126, step: 13, pause: 0, nanEvery: 0 }, { n: 218, step: 3, pause: 3986, nanEvery: 0 }, { n: 181, step: 6, pause: 3558, nanEvery: 0 },
+              { n: 238, step: 1, pause: 2897, nanEvery: 0 }, { n: 281, step: 17, pause: 2980, nanEvery: 0 }, { n: 117, step: 5, pause: 3901, nanEvery: 0 },
+              { n: 27, step: 20, pause: 396, nanEvery: 0 }, { n: 271, step: 15, pause: 441, nanEvery: 0 },
+            ],
+            240,
+            1000,
+          ],
+        ],
+      },
+    );
+  });
+
+  it('starts over after a new snapshot clears the ring', () => {
+    const ring = new SampleRing(100);
+    const live = new LiveDecimator();
+    ring.append(ramp(0, 50, 10, () => 5));
+    expect(live.update(ring, ring.ch.thrust, 0, 500, 50, 1000).y).toContain(5);
+    ring.clear();
+    ring.append(ramp(0, 50, 10, () => 7));
+    const again = live.update(ring, ring.ch.thrust, 0, 500, 50, 1000);
+    expect(again.y).not.toContain(5);
+    expect(again.y).toContain(7);
   });
 });
 

@@ -380,17 +380,45 @@ describe('dashboard against a mock daemon', () => {
       expect(throttle).toMatchObject({ type: 'throttle', value: 0.25 });
       expect(typeof throttle?.id).toBe('number');
 
+      // Dragging the slider sends one command, on release, not one per pixel.
+      const slider = page.getByTestId('throttle-slider');
+      const sb = (await slider.boundingBox())!;
+      mark = daemon.received.length;
+      await page.mouse.move(sb.x + 4, sb.y + sb.height / 2);
+      await page.mouse.down();
+      for (let i = 1; i <= 12; i++) await page.mouse.move(sb.x + 4 + (i * (sb.width - 8) * 0.5) / 12, sb.y + sb.height / 2);
+      expect(daemon.received.slice(mark).filter((r) => r.msg.type === 'throttle')).toEqual([]);
+      await page.mouse.up();
+      const dragged = await eventually(
+        async () => daemon.received.slice(mark).filter((r) => r.msg.type === 'throttle'),
+        (l) => l.length >= 1,
+        'a throttle command on release',
+      );
+      expect(dragged.length).toBe(1);
+      const v = (dragged[0].msg as { value: number }).value;
+      expect(v).toBeGreaterThan(0.2); // about half of the 0..80 % track
+      expect(v).toBeLessThanOrEqual(0.8);
+
       // Above the device's 80 % ceiling: refused on the page, not sent, not clamped.
       mark = daemon.received.length;
       await number.fill('95');
       await number.press('Enter');
       await expect(page.locator('db-throttle-control .error').textContent()).resolves.toMatch(/ceiling/);
 
-      mark = daemon.received.length;
+      // (mark is kept: the stop below arrives after anything the 95 might have sent, as one socket keeps order.)
       await number.focus();
       await page.keyboard.press('Escape');
       await eventually(async () => daemon.stopsSince(mark), (n) => n === 1, 'a stop from Escape inside the number input');
       expect(daemon.received.slice(mark).filter((r) => r.msg.type === 'throttle')).toEqual([]);
+
+      // Space inside the number input stops too (a number has no spaces; see web/src/keys.ts).
+      daemon.setBench('armed');
+      await eventually(() => number.isEnabled(), (e) => e, 'the throttle input enabled again');
+      mark = daemon.received.length;
+      await number.focus();
+      expect(await number.evaluate((el) => el.matches(':focus'))).toBe(true);
+      await page.keyboard.press('Space');
+      await eventually(async () => daemon.stopsSince(mark), (n) => n === 1, 'a stop from Space inside the number input');
       expect(errors).toEqual([]);
     } finally {
       await context.close();

@@ -24,6 +24,14 @@ export class DbEfficiencyChart extends PlotElement {
     return 300;
   }
 
+  /**
+   * A scatter of the last minutes does not need sixty frames a second, and re-pairing a five-minute window
+   * at 1 kHz costs tens of milliseconds: four times a second is plenty.
+   */
+  protected override get redrawEveryMs(): number {
+    return 250;
+  }
+
   private _units() {
     const u = this._dash.prefs?.thrustUnit ?? 'N';
     // Thrust per watt follows the thrust unit: gf/W (the usual figure) or N/W.

@@ -1,7 +1,7 @@
 import { html } from 'lit';
 import uPlot from 'uplot';
 import { CHANNEL_UNITS, type SampleChannel } from '../../../server/api/messages.js';
-import { decimateMinMax } from '../data/decimate.js';
+import { LiveDecimator } from '../data/decimate.js';
 import { thrustFactor } from '../data/units.js';
 import { PlotElement, axisStyle } from './plot-base.js';
 import { SERIES_COLOURS } from './styles.js';
@@ -29,6 +29,7 @@ export class DbLiveChart extends PlotElement {
 
   /** Seconds, read by uPlot's x range callback: the window is fixed, not fitted to the data. */
   private _range: [number, number] = [0, 1];
+  private readonly _decimator = new LiveDecimator();
 
   constructor() {
     super(['snapshot', 'samples']);
@@ -75,16 +76,7 @@ export class DbLiveChart extends PlotElement {
     const xTo = ring.length ? ring.lastT() : Date.now();
     const xFrom = xTo - windowMs;
     this._range = [xFrom / 1000, xTo / 1000];
-    const dec = decimateMinMax(ring.t, ring.ch[this.channel], ring, {
-      // One sample before the window so the line enters from the left edge.
-      i0: Math.max(0, ring.lowerBound(xFrom) - 1),
-      i1: ring.length,
-      xFrom,
-      xTo,
-      buckets: width,
-      gapX: GAP_MS,
-      scale: this._unit().factor,
-    });
+    const dec = this._decimator.update(ring, ring.ch[this.channel], xFrom, xTo, width, GAP_MS, this._unit().factor);
     const xs = dec.x.map((v) => v / 1000);
     let last: number | null = null;
     for (let i = dec.y.length - 1; i >= 0 && last === null; i--) last = dec.y[i];

@@ -53,6 +53,8 @@ export abstract class PlotElement extends LitElement {
   private _resize: ResizeObserver | null = null;
   private _width = 0;
   private _draws = 0;
+  private _lastDraw = -Infinity;
+  private _later: ReturnType<typeof setTimeout> | null = null;
 
   constructor(changes: readonly ClientChange[]) {
     super();
@@ -61,6 +63,11 @@ export abstract class PlotElement extends LitElement {
       if (c !== 'samples') this.requestUpdate(); // the head may describe the snapshot or extras
       this._frame.schedule();
     });
+  }
+
+  /** Least time between two redraws; 0 means every animation frame that has new data. */
+  protected get redrawEveryMs(): number {
+    return 0;
   }
 
   /** Plot height in CSS pixels. */
@@ -92,6 +99,8 @@ export abstract class PlotElement extends LitElement {
   override disconnectedCallback(): void {
     super.disconnectedCallback();
     this._frame.cancel();
+    if (this._later !== null) clearTimeout(this._later);
+    this._later = null;
     this._resize?.disconnect();
     this._resize = null;
     this._plot?.destroy();
@@ -117,6 +126,16 @@ export abstract class PlotElement extends LitElement {
 
   private _draw(): void {
     if (!this._plot) return;
+    const now = performance.now();
+    const wait = this._lastDraw + this.redrawEveryMs - now;
+    if (wait > 0) {
+      this._later ??= setTimeout(() => {
+        this._later = null;
+        this._frame.schedule();
+      }, wait);
+      return;
+    }
+    this._lastDraw = now;
     const { data, points, last } = this.makeData(this._width);
     this._plot.setData(data);
     this._draws++;

@@ -15,7 +15,7 @@ export interface DecimateOptions {
   /** Logical index range [i0, i1) of the ring to read. */
   i0: number;
   i1: number;
-  /** The x range shown; buckets split it evenly. */
+  /** The x range shown; buckets of width (xTo - xFrom) / buckets, aligned to multiples of that width. */
   xFrom: number;
   xTo: number;
   /** Usually the plot width in CSS pixels. */
@@ -35,78 +35,188 @@ export function linearWindow(length: number): RingWindow {
   return { start: 0, length, capacity: Math.max(length, 1) };
 }
 
-export function decimateMinMax(x: ArrayLike<number>, y: ArrayLike<number>, win: RingWindow, o: DecimateOptions): Decimated {
-  const out: Decimated = { x: [], y: [] };
-  const i0 = Math.max(0, Math.min(o.i0, win.length));
-  const i1 = Math.max(i0, Math.min(o.i1, win.length));
-  const scale = o.scale ?? 1;
-  const span = o.xTo - o.xFrom;
-  const buckets = Math.max(1, Math.floor(o.buckets));
-  // Few enough points to draw them all (the threshold counts every row, NaN included: cheap and safe).
-  const raw = i1 - i0 <= 2 * buckets || !(span > 0);
-  const bw = span / buckets;
-  const cap = win.capacity;
+/**
+ * Bucket width for a window. Buckets sit at whole multiples of it (not at the window's left edge), so they
+ * stay put while the window slides and a finished bucket never has to be computed again (LiveDecimator).
+ */
+export function bucketWidth(xFrom: number, xTo: number, buckets: number): number {
+  const bw = (xTo - xFrom) / Math.max(1, Math.floor(buckets));
+  return bw > 0 && Number.isFinite(bw) ? bw : Infinity;
+}
 
-  let lastX = NaN; // x of the last finite sample seen
-  let cb = -1; // current bucket
-  let minV = 0, maxV = 0, minX = 0, maxX = 0, minI = -1, maxI = -1;
+/** Collects min/max per bucket from samples pushed in x order. */
+class MinMaxAccumulator {
+  readonly x: number[] = [];
+  readonly y: (number | null)[] = [];
+  /** Bucket of each output point, for trimming the front. */
+  readonly k: number[] = [];
+  private _k = NaN;
+  private _n = 0;
+  private _minV = 0;
+  private _maxV = 0;
+  private _minX = 0;
+  private _maxX = 0;
+  private _minI = 0;
+  private _maxI = 0;
+  private _lastX = NaN;
 
-  const flush = () => {
-    if (minI < 0) return;
-    if (minI === maxI) {
-      out.x.push(minX);
-      out.y.push(minV * scale);
-    } else if (minI < maxI) {
-      out.x.push(minX, maxX);
-      out.y.push(minV * scale, maxV * scale);
-    } else {
-      out.x.push(maxX, minX);
-      out.y.push(maxV * scale, minV * scale);
+  constructor(
+    readonly bw: number,
+    readonly gapX: number,
+    readonly scale: number,
+  ) {}
+
+  push(xv: number, v: number, i: number): void {
+    const k = Math.floor(xv / this.bw);
+    if (xv - this._lastX > this.gapX) {
+      this.flush();
+      this.x.push((this._lastX + xv) / 2);
+      this.y.push(null);
+      this.k.push(k);
     }
-    minI = maxI = -1;
-  };
+    this._lastX = xv;
+    if (k !== this._k) {
+      this.flush();
+      this._k = k;
+    }
+    if (this._n === 0) {
+      this._minV = this._maxV = v;
+      this._minX = this._maxX = xv;
+      this._minI = this._maxI = i;
+    } else if (v < this._minV) {
+      this._minV = v;
+      this._minX = xv;
+      this._minI = i;
+    } else if (v > this._maxV) {
+      this._maxV = v;
+      this._maxX = xv;
+      this._maxI = i;
+    }
+    this._n++;
+  }
 
+  flush(): void {
+    if (this._n === 0) return;
+    this._emit(this.x, this.y, this.k);
+    this._n = 0;
+  }
+
+  /** Everything so far including the open (newest) bucket, which stays open for more samples. */
+  result(): Decimated {
+    const x = this.x.slice();
+    const y = this.y.slice();
+    if (this._n > 0) this._emit(x, y, null);
+    return { x, y };
+  }
+
+  /** Drops output points of buckets before kKeep, and a gap marker left leading. */
+  trimBefore(kKeep: number): void {
+    // An open bucket that slid out can get no more samples (time only grows): close it so it is trimmed too.
+    if (this._n > 0 && this._k < kKeep) this.flush();
+    let n = 0;
+    while (n < this.k.length && (this.k[n] < kKeep || this.y[n] === null)) n++;
+    if (n > 0) {
+      this.x.splice(0, n);
+      this.y.splice(0, n);
+      this.k.splice(0, n);
+    }
+  }
+
+  private _emit(x: number[], y: (number | null)[], ks: number[] | null): void {
+    const s = this.scale;
+    if (this._minI === this._maxI) {
+      x.push(this._minX);
+      y.push(this._minV * s);
+      ks?.push(this._k);
+    } else {
+      const minFirst = this._minI < this._maxI;
+      x.push(minFirst ? this._minX : this._maxX, minFirst ? this._maxX : this._minX);
+      y.push((minFirst ? this._minV : this._maxV) * s, (minFirst ? this._maxV : this._minV) * s);
+      ks?.push(this._k, this._k);
+    }
+  }
+}
+
+function scan(acc: MinMaxAccumulator, x: ArrayLike<number>, y: ArrayLike<number>, win: RingWindow, i0: number, i1: number, index0: number): void {
+  const cap = win.capacity;
   let p = win.start + i0;
   if (p >= cap) p -= cap;
   for (let i = i0; i < i1; i++, p = p + 1 === cap ? 0 : p + 1) {
     const v = y[p];
-    if (v !== v) continue; // NaN
-    const xv = x[p];
-    if (xv - lastX > o.gapX) {
-      flush();
-      cb = -1;
-      out.x.push((lastX + xv) / 2);
-      out.y.push(null);
-    }
-    lastX = xv;
-    if (raw) {
-      out.x.push(xv);
-      out.y.push(v * scale);
-      continue;
-    }
-    let b = Math.floor((xv - o.xFrom) / bw);
-    if (b < 0) b = -1; // samples left of the window share one bucket (the line's entry point)
-    else if (b >= buckets) b = buckets;
-    if (b !== cb) {
-      flush();
-      cb = b;
-    }
-    if (minI < 0) {
-      minV = maxV = v;
-      minX = maxX = xv;
-      minI = maxI = i;
-    } else if (v < minV) {
-      minV = v;
-      minX = xv;
-      minI = i;
-    } else if (v > maxV) {
-      maxV = v;
-      maxX = xv;
-      maxI = i;
-    }
+    if (v === v) acc.push(x[p], v, index0 + i); // NaN skipped
   }
-  flush();
-  return out;
+}
+
+/** Stateless min/max decimation of logical samples [i0, i1) of a ring (or of a plain array, see linearWindow). */
+export function decimateMinMax(x: ArrayLike<number>, y: ArrayLike<number>, win: RingWindow, o: DecimateOptions): Decimated {
+  const i0 = Math.max(0, Math.min(o.i0, win.length));
+  const i1 = Math.max(i0, Math.min(o.i1, win.length));
+  const acc = new MinMaxAccumulator(bucketWidth(o.xFrom, o.xTo, o.buckets), o.gapX, o.scale ?? 1);
+  scan(acc, x, y, win, i0, i1, 0);
+  acc.flush();
+  return { x: acc.x, y: acc.y };
+}
+
+/** What LiveDecimator needs of the ring (SampleRing fits). */
+export interface GrowingColumns extends RingWindow {
+  readonly t: ArrayLike<number>;
+  /** Samples appended since the last clear; with length it gives each sample a lasting number. */
+  readonly appended: number;
+  /** Changes when the ring is cleared (a new snapshot). */
+  readonly generation: number;
+  lowerBound(x: number): number;
+}
+
+/**
+ * Incremental min/max decimation of a live channel: each update scans only the samples that arrived since
+ * the last one, keeps the finished buckets, and drops those that slid out of the window. At 1 kHz with a
+ * five-minute window that is a few dozen samples per frame instead of 300 000. The result equals
+ * decimateMinMax over the samples from the first kept bucket on (tested). Any change of bucket width, gap,
+ * scale or ring generation starts over.
+ */
+export class LiveDecimator {
+  private _acc: MinMaxAccumulator | null = null;
+  private _key = '';
+  private _generation = -1;
+  private _y: ArrayLike<number> | null = null;
+  /** Lasting number of the next sample to scan. */
+  private _next = 0;
+
+  /**
+   * First logical index the current result covers (the stateless equivalent starts there). Decided with the
+   * same floor(x / bw) as the buckets: comparing x with k * bw instead can disagree in the last bit.
+   */
+  firstIndex(ring: GrowingColumns, xFrom: number, bw: number): number {
+    if (bw === Infinity) return 0;
+    const kKeep = Math.floor(xFrom / bw) - 1;
+    let i = ring.lowerBound(kKeep * bw);
+    const k = (j: number) => {
+      const p = ring.start + j;
+      return Math.floor(ring.t[p >= ring.capacity ? p - ring.capacity : p] / bw);
+    };
+    while (i < ring.length && k(i) < kKeep) i++;
+    while (i > 0 && k(i - 1) >= kKeep) i--;
+    return i;
+  }
+
+  update(ring: GrowingColumns, y: ArrayLike<number>, xFrom: number, xTo: number, buckets: number, gapX: number, scale = 1): Decimated {
+    const bw = bucketWidth(xFrom, xTo, buckets);
+    const key = `${bw}|${gapX}|${scale}`;
+    const base = ring.appended - ring.length; // lasting number of logical sample 0
+    // Keep one bucket left of the window: the line then enters from the left edge.
+    const kKeep = Math.floor(xFrom / bw) - 1;
+    if (!this._acc || key !== this._key || ring.generation !== this._generation || y !== this._y || this._next < base) {
+      this._acc = new MinMaxAccumulator(bw, gapX, scale);
+      this._y = y;
+      this._key = key;
+      this._generation = ring.generation;
+      this._next = base + this.firstIndex(ring, xFrom, bw);
+    }
+    scan(this._acc, ring.t, y, ring, this._next - base, ring.length, base);
+    this._next = base + ring.length;
+    if (bw !== Infinity) this._acc.trimBefore(kKeep);
+    return this._acc.result();
+  }
 }
 
 /** Below this electrical power a thrust-per-watt figure is mostly sensor noise divided by almost nothing. */

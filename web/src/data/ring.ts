@@ -32,6 +32,7 @@ export class SampleRing implements RingWindow {
   private _version = 0;
   /** Samples ever appended since the last clear (counts those overwritten too). */
   private _appended = 0;
+  private _generation = 0;
 
   constructor(capacity = DEFAULT_RING_CAPACITY) {
     if (!Number.isSafeInteger(capacity) || capacity < 2) throw new RangeError(`ring capacity ${capacity} must be an integer >= 2`);
@@ -57,11 +58,16 @@ export class SampleRing implements RingWindow {
   get appended(): number {
     return this._appended;
   }
+  /** Counts clears: what was computed from the ring before a clear is void after it. */
+  get generation(): number {
+    return this._generation;
+  }
 
   clear(): void {
     this._start = 0;
     this._length = 0;
     this._appended = 0;
+    this._generation++;
     for (const c of SAMPLE_CHANNELS) {
       this.latest[c] = NaN;
       this.latestT[c] = NaN;
