@@ -16,6 +16,10 @@ import { DeviceLink, type LinkOptions } from './link/link.js';
 import { SerialTransport } from './link/serial-transport.js';
 import type { Transport } from './link/transport.js';
 import type { VirtualBench } from './sim/index.js';
+import { Interlocks } from './interlocks/engine.js';
+import { parseLimits, type Limits } from './interlocks/limits.js';
+import type { RigSpec } from './model/rig-types.js';
+import { buildRigModel, predictAtThrottle, predictCurve, rigGeometry, type RigModel } from './model/index.js';
 
 export const DEFAULT_HTTP_PORT = 8470;
 /** How often sample batches go out to dashboards. */
@@ -41,7 +45,41 @@ export interface DaemonOptions {
   /** Built dashboard folder; defaults to dist/web beside the compiled server. */
   webRoot?: string;
   link?: Partial<Omit<LinkOptions, 'transport'>>;
+  /** The mounted rig (validated), for the prediction and the limits. Defaults to the virtual bench's rig. */
+  rig?: RigSpec | null;
+  /** Limit overrides on top of the rig's `limits` section (validated the same way). */
+  limits?: Record<string, number>;
   log?: (line: string) => void;
+}
+
+/** The prediction the dashboard overlays on its thrust-per-watt plot (snapshot.extras.prediction). */
+export interface LivePrediction {
+  rig: string;
+  density_kg_m3: number;
+  sigma: number | null;
+  tip_clearance_mm: number | null;
+  throttle: number[];
+  thrust_N: number[];
+  grams_per_watt: number[];
+  ideal_open_gpw: number[];
+  ideal_ducted_gpw: (number | null)[];
+}
+
+function livePrediction(model: RigModel, ceiling: number): LivePrediction {
+  const throttles = Array.from({ length: 30 }, (_, i) => Math.round(((i + 1) / 30) * ceiling * 1000) / 1000);
+  const curve = predictCurve(model, { throttles });
+  const geo = rigGeometry(model.rig);
+  return {
+    rig: model.rig.name,
+    density_kg_m3: curve.density_kg_m3,
+    sigma: geo.sigma,
+    tip_clearance_mm: geo.tipClearance_mm,
+    throttle: throttles,
+    thrust_N: curve.points.map((p) => p.thrust_N),
+    grams_per_watt: curve.points.map((p) => p.gramsPerWatt),
+    ideal_open_gpw: curve.points.map((p) => p.idealGramsPerWattOpen),
+    ideal_ducted_gpw: curve.points.map((p) => p.idealGramsPerWattDucted),
+  };
 }
 
 export interface RunningDaemon {
@@ -50,6 +88,7 @@ export interface RunningDaemon {
   token: string;
   link: DeviceLink;
   controller: BenchController;
+  interlocks: Interlocks;
   hub: Hub;
   /** The in-process virtual bench, when that is the device (tests and fault injection reach it here). */
   sim: VirtualBench | null;
@@ -91,6 +130,30 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
   const { make: makeTransport, sim } = await transportFor(opts.source);
   const link = new DeviceLink({ ...opts.link, transport: makeTransport });
   const controller = new BenchController(link);
+  // The rig the prediction and limits are for. The virtual bench's rig minus its truth constants, when no
+  // other is given: the model never sees the bench's own physics.
+  let rig: RigSpec | null = opts.rig ?? null;
+  if (opts.rig === undefined && sim) {
+    const { sim: _truth, ...described } = sim.rig;
+    rig = described;
+  }
+  const limits: Limits = parseLimits({ ...(rig?.limits ?? {}), ...(opts.limits ?? {}) }, rig?.limits ? 'rig limits' : 'limits');
+  controller.maxSlewPerS = limits.max_slew_per_s;
+  let model: RigModel | null = null;
+  try {
+    model = rig ? buildRigModel(rig) : null;
+  } catch (err) {
+    log(`ductbench: no prediction for rig ${rig?.name}: ${(err as Error).message}`);
+  }
+  const interlocks = new Interlocks(controller, {
+    limits,
+    diameterM: rig?.propeller.diameter_m ?? null,
+    cells: rig?.supply.cells ?? null,
+    predictor: model ? (throttle, voltage) => predictAtThrottle(model!, throttle, voltage).gramsPerWatt : null,
+    badLineCount: () => Object.values(link.view().linesBad).reduce((a, b) => a + b, 0),
+  });
+  let prediction: LivePrediction | null = null;
+  const extras = (): Record<string, unknown> => ({ prediction, limits, rig: rig ? { name: rig.name, ducted: rig.duct !== null } : null });
   const pipeline = new TelemetryPipeline();
   const history = new SampleRing(HISTORY_CAPACITY);
   const events: BenchEvent[] = [];
@@ -118,7 +181,7 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
       identity: link.identity,
       history: history.toBatch(Date.now() - SNAPSHOT_WINDOW_MS, SNAPSHOT_MAX_POINTS),
       events: events.slice(-50),
-      extras: {},
+      extras: extras(),
     };
   }
 
@@ -152,11 +215,29 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     }
     const arrivedAt = performance.now();
     const s = pipeline.toSample(f, Date.now());
+    // Interlocks first: a trip writes the cut before the sample is stored or shown.
+    interlocks.onSample(s, arrivedAt);
     for (const fn of sampleListeners) fn(s, arrivedAt);
     history.push(s);
     appendToBatch(pending, s);
   });
-  link.on('ready', () => pipeline.reset());
+  link.on('ready', (id) => {
+    pipeline.reset();
+    interlocks.reset();
+    if (model) {
+      try {
+        prediction = livePrediction(model, id.throttleCeiling);
+        hub.broadcast({ type: 'extras', extras: extras() });
+      } catch (err) {
+        log(`ductbench: prediction failed: ${(err as Error).message}`);
+      }
+    }
+  });
+  interlocks.on('warning', ({ rule, finding }) => {
+    const event: BenchEvent = { t: Date.now(), level: 'warn', kind: 'warning', text: `${rule}: ${finding.detail}` };
+    events.push(event);
+    hub.broadcast({ type: 'event', event });
+  });
   link.on('identity', (identity) => hub.broadcast({ type: 'identity', identity }));
   link.on('status', (view) => hub.broadcast({ type: 'link', link: view }));
   controller.on('bench', (bench) => hub.broadcast({ type: 'bench', bench }));
@@ -191,6 +272,7 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
   } catch (err) {
     clearInterval(flush);
     clearInterval(linkTick);
+    interlocks.close();
     throw err;
   }
 
@@ -208,6 +290,7 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     token,
     link,
     controller,
+    interlocks,
     hub,
     sim,
     firstConnect,
@@ -223,6 +306,7 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
       if (sent) await Promise.race([sent.acked.catch(() => {}), new Promise((r) => setTimeout(r, 300))]);
       clearInterval(flush);
       clearInterval(linkTick);
+      interlocks.close();
       hub.closeAll();
       await link.close();
       await http.close();

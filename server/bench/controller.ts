@@ -11,6 +11,9 @@ import { CommandRefused, type DeviceLink } from '../link/link.js';
 import { TypedEmitter } from '../util/emitter.js';
 import { mayTurn, nextState, type BenchInput, type Transition } from './state.js';
 
+/** Period of throttle ramp steps (ms). */
+export const RAMP_TICK_MS = 20;
+
 export class ControlError extends Error {
   constructor(message: string) {
     super(message);
@@ -43,6 +46,10 @@ export class BenchController extends TypedEmitter<ControllerEvents> {
   private output: number | null = null;
   private fault: FaultCode = 'none';
   private throttleCommand = 0;
+  /** Bumped by every new throttle request, stop and trip: a running ramp sees it and gives up. */
+  private rampId = 0;
+  /** Fastest upward throttle change, fraction per second (the throttle_slew limit). Downward is never limited. */
+  maxSlewPerS = 1.0;
 
   constructor(private readonly link: DeviceLink) {
     super();
@@ -102,14 +109,34 @@ export class BenchController extends TypedEmitter<ControllerEvents> {
     await this.device('DISARM', {});
   }
 
-  /** Sets the throttle (0..1). Refused, never clamped, above the device's ceiling or when not armed. */
+  /**
+   * Sets the throttle (0..1). Refused, never clamped, above the device's ceiling or when not armed. Upward
+   * changes faster than maxSlewPerS are ramped in RAMP_TICK_MS steps (the throttle_slew limit); downward
+   * changes go at once. Resolves when the target is reached; a newer request, a stop or a trip ends a ramp.
+   */
   async setThrottle(value: number): Promise<void> {
     if (!Number.isFinite(value) || value < 0 || value > 1) throw new ControlError(`throttle ${value} outside 0..1`);
     if (!mayTurn(this.stateValue)) throw new ControlError(`cannot set throttle while ${this.stateValue}`);
     const ceiling = this.link.identity?.throttleCeiling ?? 0;
     if (value > ceiling) throw new ControlError(`throttle ${value} is above the device ceiling ${ceiling}`);
-    this.throttleCommand = value;
-    await this.device('THR', { v: value });
+    const ramp = ++this.rampId;
+    const step = this.maxSlewPerS * (RAMP_TICK_MS / 1000);
+    let cur = this.throttleCommand;
+    if (value <= cur + step) {
+      this.throttleCommand = value;
+      await this.device('THR', { v: value });
+      return;
+    }
+    while (cur < value) {
+      const next = Math.min(value, Math.round((cur + step) * 1e4) / 1e4);
+      this.throttleCommand = next;
+      await this.device('THR', { v: next });
+      cur = next;
+      if (cur >= value) break;
+      await new Promise((r) => setTimeout(r, RAMP_TICK_MS));
+      if (ramp !== this.rampId) throw new ControlError('throttle ramp ended by a newer command, a stop or a trip');
+      if (!mayTurn(this.stateValue)) throw new ControlError(`throttle ramp ended: bench is ${this.stateValue}`);
+    }
   }
 
   /**
@@ -119,6 +146,7 @@ export class BenchController extends TypedEmitter<ControllerEvents> {
   stop(source: string): boolean {
     const sent = this.link.sendUrgent('estop');
     this.throttleCommand = 0;
+    this.rampId++;
     this.log('warn', 'stop', sent ? `emergency stop from ${source}: cut sent` : `emergency stop from ${source}: no device connected`);
     this.emit('bench', this.view());
     return sent !== null;
@@ -132,6 +160,7 @@ export class BenchController extends TypedEmitter<ControllerEvents> {
     const sent = this.link.sendUrgent('host_trip');
     const cutWrittenAt = sent ? performance.now() : null;
     this.throttleCommand = 0;
+    this.rampId++;
     const record: TripRecord = { rule, value, limit, detail, arrivedAt, cutWrittenAt };
     this.apply({ kind: 'host_trip', rule, detail });
     this.log('error', 'trip', `${rule} tripped: ${detail}`);

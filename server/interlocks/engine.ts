@@ -1,0 +1,293 @@
+// Runs the interlock rules: every sample goes through the sample rules before it is stored or broadcast, and
+// a timer runs the tick rules. A trip calls the controller's trip(), which writes the cut before anything
+// else happens; warnings are rate-limited per rule and reported as events.
+
+import type { BenchState } from '../api/messages.js';
+import type { Sample } from '../bench/telemetry.js';
+import { TypedEmitter } from '../util/emitter.js';
+import type { Limits } from './limits.js';
+import { RULES, type Finding, type Rule, type RuleContext } from './rules.js';
+
+/** What the engine needs of the bench: its state, and the cut. */
+export interface TripTarget {
+  readonly state: BenchState;
+  trip(rule: string, value: number, limit: number, detail: string, arrivedAt: number): unknown;
+}
+
+export interface InterlockOptions {
+  limits: Limits;
+  /** Propeller diameter (m), for tip speed; null when no rig is known. */
+  diameterM: number | null;
+  /** Cells in series from the rig; null to use limits.cells or infer. */
+  cells: number | null;
+  /** Air temperature (K) for the speed of sound; 288.15 K (standard sea level) by default. */
+  airTemperatureK?: number;
+  /** Predicted grams per watt at a throttle and bus voltage, or null. */
+  predictor?: ((throttle: number, voltage: number) => number | null) | null;
+  /** Total bad lines counted by the link so far. */
+  badLineCount: () => number;
+  /** Time source, ms (performance.now by default; tests pass their own). */
+  now?: () => number;
+  /** Tick rule period (ms); 0 disables the timer (tests call tick()). */
+  tickMs?: number;
+}
+
+export interface InterlockEvents {
+  warning: { rule: string; finding: Finding };
+  trip: { rule: string; finding: Finding; sample: Sample | null; arrivedAt: number };
+}
+
+const WARN_REPEAT_MS = 2000;
+const GAMMA_AIR = 1.4;
+const R_AIR = 287.05287; // J/(kg K), ISO 2533
+
+/** Sliding-window linear regression of thrust on time, O(1) per sample. */
+class TrendWindow {
+  private ts: number[] = [];
+  private ys: number[] = [];
+  private head = 0;
+  private st = 0;
+  private sy = 0;
+  private stt = 0;
+  private sty = 0;
+  private syy = 0;
+  private origin: number | null = null;
+  private sinceRebuild = 0;
+
+  constructor(private windowS: number) {}
+
+  get n(): number {
+    return this.ts.length - this.head;
+  }
+
+  add(tS: number, y: number): void {
+    if (this.origin === null) this.origin = tS;
+    const t = tS - this.origin;
+    this.ts.push(t);
+    this.ys.push(y);
+    this.acc(t, y, 1);
+    while (this.n > 0 && t - this.ts[this.head] > this.windowS) {
+      this.acc(this.ts[this.head], this.ys[this.head], -1);
+      this.head++;
+    }
+    // Compact and re-sum now and then: keeps arrays short and cancels rounding drift of the running sums.
+    if (++this.sinceRebuild > 4096) this.rebuild();
+  }
+
+  /** Residual standard deviation about the least-squares line, or null with too little data. */
+  residualStd(minPoints: number): number | null {
+    const n = this.n;
+    if (n < Math.max(minPoints, 3)) return null;
+    const span = this.ts[this.ts.length - 1] - this.ts[this.head];
+    if (span < 0.8 * this.windowS) return null;
+    const ctt = this.stt - (this.st * this.st) / n;
+    const cty = this.sty - (this.st * this.sy) / n;
+    const cyy = this.syy - (this.sy * this.sy) / n;
+    const rss = ctt > 0 ? cyy - (cty * cty) / ctt : cyy;
+    return Math.sqrt(Math.max(0, rss) / (n - 2));
+  }
+
+  reset(): void {
+    this.ts = [];
+    this.ys = [];
+    this.head = 0;
+    this.st = this.sy = this.stt = this.sty = this.syy = 0;
+    this.origin = null;
+  }
+
+  private acc(t: number, y: number, sign: 1 | -1): void {
+    this.st += sign * t;
+    this.sy += sign * y;
+    this.stt += sign * t * t;
+    this.sty += sign * t * y;
+    this.syy += sign * y * y;
+  }
+
+  private rebuild(): void {
+    const ts = this.ts.slice(this.head);
+    const ys = this.ys.slice(this.head);
+    const shift = ts.length ? ts[0] : 0;
+    this.origin = (this.origin ?? 0) + shift;
+    this.reset();
+    this.origin = this.origin ?? 0;
+    for (let i = 0; i < ts.length; i++) {
+      this.ts.push(ts[i] - shift);
+      this.ys.push(ys[i]);
+      this.acc(ts[i] - shift, ys[i], 1);
+    }
+    this.sinceRebuild = 0;
+  }
+}
+
+export class Interlocks extends TypedEmitter<InterlockEvents> {
+  limits: Limits;
+  private readonly opts: InterlockOptions;
+  private readonly now: () => number;
+  private readonly trend: TrendWindow;
+  private readonly exceededSince = new Map<string, number>();
+  private readonly lastWarnAt = new Map<string, number>();
+  private timer: NodeJS.Timeout | null = null;
+  private output = 0;
+  private outputZeroSince: number | null = null;
+  private lastFrameAt: number | null = null;
+  private lastThrustAt: number | null = null;
+  private cells: number | null;
+  private badHistory: { t: number; total: number }[] = [];
+  // steady-state efficiency for the prediction rule
+  private emaThrust: number | null = null;
+  private emaPower: number | null = null;
+  private lastEmaT: number | null = null;
+  private outputChangedAt = 0;
+  private lastPredictionAt = -Infinity;
+  private predicted: number | null = null;
+
+  constructor(
+    private readonly target: TripTarget,
+    opts: InterlockOptions,
+  ) {
+    super();
+    this.opts = opts;
+    this.limits = opts.limits;
+    this.now = opts.now ?? (() => performance.now());
+    this.trend = new TrendWindow(opts.limits.vibration_window_s);
+    this.cells = opts.cells ?? (opts.limits.cells > 0 ? opts.limits.cells : null);
+    const tick = opts.tickMs ?? 25;
+    if (tick > 0) {
+      this.timer = setInterval(() => this.tick(), tick);
+      this.timer.unref();
+    }
+  }
+
+  get knownCells(): number | null {
+    return this.cells;
+  }
+
+  close(): void {
+    if (this.timer) clearInterval(this.timer);
+    this.timer = null;
+  }
+
+  /** Forget per-connection history (after a reconnect the old readings say nothing about the new link). */
+  reset(): void {
+    this.trend.reset();
+    this.exceededSince.clear();
+    this.lastFrameAt = this.lastThrustAt = null;
+    this.emaThrust = this.emaPower = this.lastEmaT = null;
+    this.outputZeroSince = null;
+  }
+
+  /** Runs the sample rules. `arrivedAt` is when the line arrived (performance.now() base). */
+  onSample(s: Sample, arrivedAt: number): void {
+    const now = this.now();
+    this.lastFrameAt = now;
+    if (s.thrust !== null) {
+      this.lastThrustAt = now;
+      this.trend.add(s.dt, s.thrust);
+    }
+    if (s.out !== null) {
+      if (Math.abs(s.out - this.output) > 0.005) this.outputChangedAt = now;
+      this.output = s.out;
+      if (s.out === 0) this.outputZeroSince ??= now;
+      else this.outputZeroSince = null;
+    }
+    const mayTurn = this.mayTurn();
+    if (this.cells === null && !mayTurn && s.voltage !== null && s.voltage > 2) {
+      // Resting voltage of a charged pack is at most 4.2-4.25 V a cell, so this never overcounts.
+      this.cells = Math.ceil(s.voltage / 4.25);
+    }
+    this.updateEfficiency(s, now);
+    const ctx = this.context(now, mayTurn);
+    for (const rule of RULES) {
+      if (!rule.sample) continue;
+      const f = rule.sample(s, ctx);
+      if (this.handle(rule, f, now, arrivedAt, s)) return; // tripped: the rest can wait
+    }
+  }
+
+  /** Runs the tick rules (also called by the timer). */
+  tick(): void {
+    const now = this.now();
+    const total = this.opts.badLineCount();
+    this.badHistory.push({ t: now, total });
+    while (this.badHistory.length > 1 && now - this.badHistory[0].t > 1000) this.badHistory.shift();
+    const ctx = this.context(now, this.mayTurn());
+    for (const rule of RULES) {
+      if (!rule.tick) continue;
+      if (this.handle(rule, rule.tick(ctx), now, now, null, true)) return;
+    }
+  }
+
+  private mayTurn(): boolean {
+    const st = this.target.state;
+    return st === 'armed' || st === 'running';
+  }
+
+  private context(now: number, mayTurn: boolean): RuleContext {
+    const T = this.opts.airTemperatureK ?? 288.15;
+    const first = this.badHistory[0];
+    const last = this.badHistory[this.badHistory.length - 1];
+    return {
+      limits: this.limits,
+      now,
+      mayTurn,
+      output: this.output,
+      outputZeroSince: this.outputZeroSince,
+      outputSteadyForMs: now - this.outputChangedAt,
+      diameterM: this.opts.diameterM,
+      speedOfSound: Math.sqrt(GAMMA_AIR * R_AIR * T),
+      cells: this.cells,
+      thrustDetrendedStd: this.trend.residualStd(8),
+      gpwMeasured: this.steadyGpw(now),
+      gpwPredicted: this.predicted,
+      lastFrameAt: this.lastFrameAt,
+      lastThrustAt: this.lastThrustAt,
+      badLinesLastSecond: first && last ? last.total - first.total : 0,
+    };
+  }
+
+  /** Returns true when the finding tripped the bench. */
+  private handle(rule: Rule, f: Finding | null, now: number, arrivedAt: number, s: Sample | null, immediate = false): boolean {
+    if (!f || f.level !== 'trip') this.exceededSince.delete(rule.name);
+    if (!f) return false;
+    if (f.level === 'trip') {
+      const st = this.target.state;
+      if (st === 'tripped' || st === 'disconnected') return false;
+      const since = this.exceededSince.get(rule.name);
+      if (since === undefined) this.exceededSince.set(rule.name, now);
+      if (immediate || this.limits.debounce_ms === 0 || (since !== undefined && now - since >= this.limits.debounce_ms)) {
+        // Cut first: everything after this line happens with the STOP already written.
+        this.target.trip(rule.name, f.value, f.limit, f.detail, arrivedAt);
+        this.exceededSince.delete(rule.name);
+        this.emit('trip', { rule: rule.name, finding: f, sample: s, arrivedAt });
+        return true;
+      }
+      return false;
+    }
+    const last = this.lastWarnAt.get(rule.name) ?? -Infinity;
+    if (now - last >= WARN_REPEAT_MS) {
+      this.lastWarnAt.set(rule.name, now);
+      this.emit('warning', { rule: rule.name, finding: f });
+    }
+    return false;
+  }
+
+  private updateEfficiency(s: Sample, now: number): void {
+    const tau = 500; // ms
+    const a = this.lastEmaT === null ? 1 : 1 - Math.exp(-(now - this.lastEmaT) / tau);
+    if (s.thrust !== null) this.emaThrust = this.emaThrust === null ? s.thrust : this.emaThrust + a * (s.thrust - this.emaThrust);
+    if (s.power !== null) this.emaPower = this.emaPower === null ? s.power : this.emaPower + a * (s.power - this.emaPower);
+    this.lastEmaT = now;
+    const p = this.opts.predictor;
+    if (p && s.voltage !== null && now - this.lastPredictionAt > 100) {
+      this.lastPredictionAt = now;
+      this.predicted = this.output > 0 ? p(this.output, s.voltage) : null;
+    }
+  }
+
+  /** Measured grams per watt once the output has held for 1.5 s and thrust is meaningful; else null. */
+  private steadyGpw(now: number): number | null {
+    if (this.emaThrust === null || this.emaPower === null || this.output <= 0) return null;
+    if (now - this.outputChangedAt < 1500 || this.emaThrust < 0.5 || this.emaPower < 1) return null;
+    return this.emaThrust / 9.80665e-3 / this.emaPower;
+  }
+}
