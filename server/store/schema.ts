@@ -1,0 +1,123 @@
+// The database layout and its history. A migration is appended, never edited once released: a database
+// written by any earlier ductbench is carried forward step by step, each step in its own transaction with the
+// version bump, so a crash mid-upgrade leaves the file at the last whole step. PRAGMA user_version holds how
+// many steps have been applied.
+
+import type Database from 'better-sqlite3';
+import { SchemaTooNew } from './errors.js';
+
+export interface Migration {
+  /** What the step changes, for people reading an upgrade log. */
+  summary: string;
+  up(db: Database.Database): void;
+}
+
+/** Sample channels stored as REAL columns (NULL where the frame did not carry the channel). */
+export const SAMPLE_COLUMNS = ['thrust', 'voltage', 'current', 'power', 'rpm', 'temp', 'torque', 'out'] as const;
+
+export const MIGRATIONS: readonly Migration[] = [
+  {
+    summary: 'sessions, tags, samples, operating points, events',
+    up(db) {
+      db.exec(`
+        CREATE TABLE sessions (
+          id INTEGER PRIMARY KEY AUTOINCREMENT,
+          title TEXT NOT NULL DEFAULT '',
+          notes TEXT NOT NULL DEFAULT '',
+          outcome TEXT NOT NULL CHECK (outcome IN ('running', 'completed', 'tripped', 'aborted', 'interrupted')),
+          started_at REAL NOT NULL,
+          ended_at REAL,
+          rig_name TEXT,
+          rig_json TEXT,
+          calibration_json TEXT,
+          atmosphere_json TEXT,
+          firmware_json TEXT,
+          sequence_json TEXT,
+          -- Who is recording a running session, and when it last wrote: lets a later open tell a live
+          -- recorder in another process from one that died.
+          recorder_pid INTEGER,
+          heartbeat_at REAL
+        );
+        CREATE INDEX sessions_started ON sessions (started_at);
+        CREATE INDEX sessions_rig ON sessions (rig_name);
+
+        CREATE TABLE session_tags (
+          session_id INTEGER NOT NULL REFERENCES sessions (id) ON DELETE CASCADE,
+          tag TEXT NOT NULL,
+          PRIMARY KEY (session_id, tag)
+        ) WITHOUT ROWID;
+        CREATE INDEX session_tags_tag ON session_tags (tag);
+
+        CREATE TABLE samples (
+          session_id INTEGER NOT NULL REFERENCES sessions (id) ON DELETE CASCADE,
+          t REAL NOT NULL,
+          dt REAL,
+          thrust REAL, voltage REAL, current REAL, power REAL, rpm REAL, temp REAL, torque REAL, out REAL
+        );
+        CREATE INDEX samples_session_t ON samples (session_id, t);
+
+        CREATE TABLE points (
+          session_id INTEGER NOT NULL REFERENCES sessions (id) ON DELETE CASCADE,
+          idx INTEGER NOT NULL,
+          throttle REAL NOT NULL,
+          thrust REAL,
+          power REAL,
+          t_start REAL NOT NULL,
+          json TEXT NOT NULL
+        );
+        CREATE INDEX points_session ON points (session_id, idx);
+        CREATE INDEX points_throttle ON points (throttle);
+        CREATE INDEX points_thrust ON points (thrust);
+
+        CREATE TABLE events (
+          session_id INTEGER NOT NULL REFERENCES sessions (id) ON DELETE CASCADE,
+          t REAL NOT NULL,
+          level TEXT NOT NULL CHECK (level IN ('info', 'warn', 'error')),
+          kind TEXT NOT NULL,
+          text TEXT NOT NULL,
+          data_json TEXT
+        );
+        CREATE INDEX events_session ON events (session_id, t);
+      `);
+    },
+  },
+  {
+    // Counting a few million sample rows for every line of `sessions list` is slow; keep the count on the
+    // session row (the recorder bumps it in the same transaction as the rows) and backfill old sessions.
+    summary: 'sample count kept on the session row; events indexed by kind',
+    up(db) {
+      db.exec(`
+        ALTER TABLE sessions ADD COLUMN sample_count INTEGER NOT NULL DEFAULT 0;
+        UPDATE sessions SET sample_count = (SELECT count(*) FROM samples WHERE samples.session_id = sessions.id);
+        CREATE INDEX events_kind ON events (session_id, kind);
+      `);
+    },
+  },
+];
+
+export const SCHEMA_VERSION = MIGRATIONS.length;
+
+export function schemaVersion(db: Database.Database): number {
+  return db.pragma('user_version', { simple: true }) as number;
+}
+
+/**
+ * Applies the migrations the database has not seen, up to `target` (tests stop early to build an old file).
+ * Returns the versions applied.
+ */
+export function migrate(db: Database.Database, target: number = SCHEMA_VERSION): number[] {
+  const found = schemaVersion(db);
+  if (found > SCHEMA_VERSION) throw new SchemaTooNew(found, SCHEMA_VERSION);
+  const applied: number[] = [];
+  for (let v = found; v < Math.min(target, SCHEMA_VERSION); v++) {
+    const step = MIGRATIONS[v];
+    db.transaction(() => {
+      step.up(db);
+      // user_version lives in the file header and is written inside the transaction, so step and bump
+      // commit together or not at all.
+      db.pragma(`user_version = ${v + 1}`);
+    })();
+    applied.push(v + 1);
+  }
+  return applied;
+}
