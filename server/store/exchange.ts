@@ -422,13 +422,29 @@ function lineOf(text: string, pos: number): number {
   return n;
 }
 
+/**
+ * The line of a JSON.parse error. V8 words its messages three ways: "... at position N", "Unexpected token 'x',
+ * ..."context"... is not valid JSON" (ten characters either side), and "Unexpected end of JSON input".
+ */
+function jsonErrorLine(text: string, msg: string): number | null {
+  const pos = /at position (\d+)/.exec(msg);
+  if (pos) return lineOf(text, Number(pos[1]));
+  const tok = /^Unexpected token '([\s\S])', (\.\.\.)?"([\s\S]*?)"(\.\.\.)? is not valid JSON$/.exec(msg);
+  if (tok) {
+    const at = text.indexOf(tok[3]);
+    if (at >= 0) return lineOf(text, at + (tok[2] ? 10 : tok[3].indexOf(tok[1])));
+  }
+  if (/end of JSON input/.test(msg)) return lineOf(text, text.length);
+  return null;
+}
+
 function importJson(store: SessionStore, text: string, opts: ImportOptions): ImportResult {
   let doc: unknown;
   try {
     doc = JSON.parse(text);
   } catch (err) {
-    const m = /position (\d+)/.exec((err as Error).message);
-    throw new ImportError(m ? lineOf(text, Number(m[1])) : null, `not valid JSON (${(err as Error).message})`);
+    const msg = (err as Error).message;
+    throw new ImportError(jsonErrorLine(text, msg), `not valid JSON (${msg.length > 120 ? msg.slice(0, 120) + '...' : msg})`);
   }
   const d = doc as Record<string, unknown>;
   if (typeof d !== 'object' || d === null || d.format !== JSON_FORMAT) throw new ImportError(null, `not a ductbench session export (format must be "${JSON_FORMAT}")`);
