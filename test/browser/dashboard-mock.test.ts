@@ -44,6 +44,8 @@ class MockDaemon {
   received: { role: Role; msg: ClientMessage }[] = [];
   connections = 0;
   nextRole: Role = 'controller';
+  /** Holds the snapshot back, so the page builds its charts with no data first. */
+  snapshotDelayMs = 0;
   benchState: BenchView['state'] = 'armed';
   private timer: ReturnType<typeof setInterval> | null = null;
   private t0 = Date.now();
@@ -186,7 +188,17 @@ class MockDaemon {
       events: [{ t: now - 4000, level: 'info', kind: 'state', text: 'bench armed' }],
       extras: { prediction: this.prediction() },
     };
-    ws.send(JSON.stringify(snapshot));
+    if (this.snapshotDelayMs > 0) {
+      // Nothing else may reach the page before its snapshot: keep it out of the broadcast list meanwhile.
+      this.clients = this.clients.filter((c) => c !== client);
+      setTimeout(() => {
+        if (ws.readyState !== ws.OPEN) return;
+        ws.send(JSON.stringify({ ...snapshot, history: this.samples(Date.now() - 5000, 500, 10) }));
+        this.clients.push(client);
+      }, this.snapshotDelayMs);
+    } else {
+      ws.send(JSON.stringify(snapshot));
+    }
     ws.on('message', (data) => {
       const parsed = parseClientMessage(String(data));
       if (!parsed.ok) {
@@ -232,6 +244,7 @@ class MockDaemon {
 
   setBench(state: BenchView['state']): void {
     this.benchState = state;
+    if (state === 'armed' && this.throttle === 0) this.throttle = 0.3;
     this.broadcast({ type: 'bench', bench: this.bench() });
   }
 
@@ -261,6 +274,16 @@ afterAll(async () => {
   if (webDir) await rm(webDir, { recursive: true, force: true });
 }, 60_000);
 
+/** Pixels with any paint on a chart's canvas: a blank canvas has none (uPlot draws axes even without data). */
+const painted = (page: import('playwright-core').Page, selector: string) =>
+  page.locator(`${selector} canvas`).evaluate((c) => {
+    const canvas = c as HTMLCanvasElement;
+    const d = canvas.getContext('2d')!.getImageData(0, 0, canvas.width, canvas.height).data;
+    let n = 0;
+    for (let i = 3; i < d.length; i += 4) if (d[i] > 0) n++;
+    return n;
+  });
+
 const chartState = (page: import('playwright-core').Page, channel: string) =>
   page.locator(`db-live-chart[channel="${channel}"]`).evaluate((el) => ({
     draws: Number(el.getAttribute('data-draws') ?? 0),
@@ -271,7 +294,7 @@ const chartState = (page: import('playwright-core').Page, channel: string) =>
 describe('dashboard against a mock daemon', () => {
   it('connects with the token, hides it from the URL, and keeps charts and readouts moving', async () => {
     daemon.nextRole = 'controller';
-    daemon.benchState = 'armed';
+    daemon.setBench('armed');
     const { page, context, errors } = await openDashboard(browser, `${base}/?token=${TOKEN}`);
     try {
       expect(new URL(page.url()).searchParams.has('token')).toBe(false);
@@ -329,7 +352,7 @@ describe('dashboard against a mock daemon', () => {
 
   it('sends stop from the button, from Space and from Escape, and Space never clicks a focused button', async () => {
     daemon.nextRole = 'controller';
-    daemon.benchState = 'armed';
+    daemon.setBench('armed');
     const { page, context, errors } = await openDashboard(browser, `${base}/?token=${TOKEN}`);
     try {
       let mark = daemon.received.length;
@@ -427,7 +450,7 @@ describe('dashboard against a mock daemon', () => {
 
   it('disables the controls for a viewer, who can still stop', async () => {
     daemon.nextRole = 'viewer';
-    daemon.benchState = 'armed';
+    daemon.setBench('armed');
     const { page, context, errors } = await openDashboard(browser, `${base}/?token=${TOKEN}`);
     try {
       await expect(page.getByTestId('viewer-note').isVisible()).resolves.toBe(true);
@@ -465,6 +488,30 @@ describe('dashboard against a mock daemon', () => {
       expect(errors).toEqual([]);
     } finally {
       await context.close();
+    }
+  }, 120_000);
+
+  it('paints charts that were built before the snapshot arrived', async () => {
+    daemon.nextRole = 'controller';
+    daemon.setBench('armed');
+    daemon.snapshotDelayMs = 1500;
+    try {
+      const { page, context, errors } = await openDashboard(browser, `${base}/?token=${TOKEN}`, { waitFor: 'app' });
+      try {
+        // The charts exist (and are sized) while the page still waits for its snapshot.
+        await waitForConnection(page, 'syncing');
+        await eventually(() => page.locator('db-efficiency-chart canvas').count(), (n) => n === 1, 'the scatter built before the snapshot');
+        await waitForConnection(page, 'live');
+        await eventually(() => page.locator('db-efficiency-chart').getAttribute('data-points'), (p) => Number(p) > 5, 'efficiency points');
+        // Dots and lines take thousands of pixels; axes alone a few hundred; a blank canvas none.
+        await eventually(() => painted(page, 'db-efficiency-chart'), (n) => n > 5000, 'the scatter painted');
+        await eventually(() => painted(page, 'db-live-chart[channel="thrust"]'), (n) => n > 1000, 'the thrust chart painted');
+        expect(errors).toEqual([]);
+      } finally {
+        await context.close();
+      }
+    } finally {
+      daemon.snapshotDelayMs = 0;
     }
   }, 120_000);
 

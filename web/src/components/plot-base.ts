@@ -54,6 +54,8 @@ export abstract class PlotElement extends LitElement {
   private _width = 0;
   private _draws = 0;
   private _lastDraw = -Infinity;
+  /** Whether the current uPlot was built with any data at all (see _draw). */
+  private _builtWithData = false;
   private _later: ReturnType<typeof setTimeout> | null = null;
 
   constructor(changes: readonly ClientChange[]) {
@@ -120,7 +122,9 @@ export abstract class PlotElement extends LitElement {
     if (!box || this._width <= 0) return;
     this._plot?.destroy();
     const opts = this.makeOptions(this._width, this.plotHeight);
-    this._plot = new uPlot(opts, this.makeData(this._width).data, box);
+    const data = this.makeData(this._width).data;
+    this._builtWithData = hasData(data);
+    this._plot = new uPlot(opts, data, box);
     this._frame.schedule();
   }
 
@@ -137,6 +141,12 @@ export abstract class PlotElement extends LitElement {
     }
     this._lastDraw = now;
     const { data, points, last } = this.makeData(this._width);
+    if (!this._builtWithData && hasData(data)) {
+      // A uPlot made with no data at all (the page opened before the snapshot) sizes its axes to nothing;
+      // in faceted mode (the scatter) later setData calls then paint a blank canvas. Build it again now.
+      this._rebuild();
+      return;
+    }
     this._plot.setData(data);
     this._draws++;
     // Hooks for tests and for anyone debugging in the inspector: what was last handed to uPlot.
@@ -144,6 +154,13 @@ export abstract class PlotElement extends LitElement {
     this.setAttribute('data-draws', String(this._draws));
     this.setAttribute('data-last', last === null ? '' : String(last));
   }
+}
+
+function hasData(data: uPlot.AlignedData): boolean {
+  // Faceted data (mode 2) is [null, [xs, ys], ...]; aligned data is [xs, ys, ...].
+  const first = data[0] as ArrayLike<number> | null;
+  if (first === null) return (data as unknown as ([ArrayLike<number>, unknown] | null)[]).some((s) => s !== null && s[0].length > 0);
+  return first.length > 0;
 }
 
 /** Axis and grid colours from the page's custom properties, read once per plot build. */

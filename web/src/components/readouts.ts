@@ -28,7 +28,7 @@ export class DbReadouts extends LitElement {
     }
     .grid {
       display: grid;
-      grid-template-columns: repeat(auto-fill, minmax(9.5rem, 1fr));
+      grid-template-columns: repeat(auto-fill, minmax(7.6rem, 1fr));
       gap: 0.6rem;
     }
     .tile {
@@ -43,14 +43,16 @@ export class DbReadouts extends LitElement {
       display: flex;
       justify-content: space-between;
       gap: 0.4rem;
-      font-size: 0.75rem;
+      font-size: 0.72rem;
+      white-space: nowrap;
+      overflow: hidden;
       font-weight: 650;
-      letter-spacing: 0.06em;
+      letter-spacing: 0.03em;
       text-transform: uppercase;
       color: var(--db-muted);
     }
     .value {
-      font-size: 2rem;
+      font-size: 1.85rem;
       font-weight: 650;
       font-variant-numeric: tabular-nums;
       line-height: 1.15;
@@ -111,7 +113,7 @@ export class DbReadouts extends LitElement {
       tile('power', 'Power', 'W', 1),
       {
         key: 'efficiency',
-        label: 'Thrust / power',
+        label: 'Thrust/W',
         unit: efficiencyUnit(unit),
         value: eff,
         decimals: unit === 'gf' ? 2 : 3,
@@ -119,8 +121,8 @@ export class DbReadouts extends LitElement {
         colour: '#1d6f7a',
       },
       tile('rpm', 'Speed', 'rpm', 0),
-      tile('temp', 'Temperature', '°C', 1),
-      tile('out', 'Throttle out', '%', 1, 100),
+      tile('temp', 'Temp', '°C', 1),
+      tile('out', 'Output', '%', 1, 100),
     ];
     // Torque only where a torque cell is fitted.
     if (Number.isFinite(v('torque'))) tiles.push(tile('torque', 'Torque', 'N·m', 4));
