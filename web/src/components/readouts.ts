@@ -20,7 +20,7 @@ interface Tile {
   colour: string;
 }
 
-/** Big live numbers: the latest value of each channel. */
+/** Big live numbers: the latest value of each channel (the throttle output is in the bench panel). */
 export class DbReadouts extends LitElement {
   static override styles = css`
     :host {
@@ -42,7 +42,7 @@ export class DbReadouts extends LitElement {
     .label {
       display: flex;
       justify-content: space-between;
-      gap: 0.4rem;
+      gap: 0.2rem;
       font-size: 0.72rem;
       white-space: nowrap;
       overflow: hidden;
@@ -60,7 +60,12 @@ export class DbReadouts extends LitElement {
       overflow: hidden;
       text-overflow: ellipsis;
     }
+    .label span:first-child {
+      overflow: hidden;
+      text-overflow: ellipsis;
+    }
     .unit {
+      flex-shrink: 0;
       text-transform: none;
       letter-spacing: 0;
       font-weight: 600;
@@ -113,7 +118,7 @@ export class DbReadouts extends LitElement {
       tile('power', 'Power', 'W', 1),
       {
         key: 'efficiency',
-        label: 'Thrust/W',
+        label: 'Per watt',
         unit: efficiencyUnit(unit),
         value: eff,
         decimals: unit === 'gf' ? 2 : 3,
@@ -122,7 +127,6 @@ export class DbReadouts extends LitElement {
       },
       tile('rpm', 'Speed', 'rpm', 0),
       tile('temp', 'Temp', '°C', 1),
-      tile('out', 'Output', '%', 1, 100),
     ];
     // Torque only where a torque cell is fitted.
     if (Number.isFinite(v('torque'))) tiles.push(tile('torque', 'Torque', 'N·m', 4));
