@@ -89,10 +89,10 @@ export function vehicleVerdict(infos: readonly SessionCurveInfo[], power: Readon
     r.measured_range_N
       ? `hover needs ${f2(r.hover_thrust_per_motor_N)} N per motor${r.duct_weight_N > 0 ? ` (${f2(r.duct_weight_N)} N of it for the duct)` : ''}, outside the measured ${f2(r.measured_range_N[0])}–${f2(r.measured_range_N[1])} N; no figure without extrapolating — measure that thrust`
       : 'has no usable power curve';
-  if (!base.in_range) text.push(`Baseline ${who(base)}: ${outside(base)}.`);
+  if (!base.in_range) text.push(`Baseline, ${who(base).replace('Session', 'session')}: ${outside(base)}.`);
   else
     text.push(
-      `Baseline ${who(base)}: hover at ${f2(base.hover_thrust_per_motor_N)} N per motor takes ${f1(base.power_per_motor_W!)} W per motor, ${f1(base.total_power_W!)} W in all: ${f1(base.endurance_min!)} min on ${f1(v.battery_wh)} Wh.`,
+      `Baseline, ${who(base).replace('Session', 'session')}: hover at ${f2(base.hover_thrust_per_motor_N)} N per motor takes ${f1(base.power_per_motor_W!)} W per motor, ${f1(base.total_power_W!)} W in all: ${f1(base.endurance_min!)} min on ${f1(v.battery_wh)} Wh.`,
     );
   for (const r of results.slice(1)) {
     // Break-even: the thrust at which this session draws the baseline's hover power, less the bare per-motor share.
