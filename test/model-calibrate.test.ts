@@ -114,6 +114,31 @@ describe('calibration', () => {
   });
 });
 
+describe('calibration of the ESC offset and the shroud realisation', () => {
+  it('recovers an ESC throttle offset and the no-load current together with the aerodynamic factors', () => {
+    const truth: ModelOptions = { factors: { liftFactor: 1.05, cd0Factor: 1.3, inducedFactor: 1.1 }, esc: { throttleOffset: 0.04 }, motor: { noLoadCurrent_a: 0.45 } };
+    const pts = sweep(openRig, truth, 57, throttles);
+    const fit = calibrate(openRig, pts, { noise, parameters: ['liftFactor', 'cd0Factor', 'inducedFactor', 'escThrottleOffset', 'motorNoLoadCurrent'] });
+    expect(fit.converged).toBe(true);
+    expect(fit.degenerate).toBe(false);
+    const u = fit.uncertainties.escThrottleOffset!;
+    expect(u).toBeGreaterThan(0);
+    expect(Math.abs(fit.parameters.escThrottleOffset! - 0.04)).toBeLessThan(3 * u);
+    expect(Math.abs(fit.parameters.motorNoLoadCurrent! - 0.45)).toBeLessThan(3 * fit.uncertainties.motorNoLoadCurrent!);
+  });
+
+  it('recovers the shroud realisation from ducted points with the open factors held, and calls it degenerate on an open rig', () => {
+    const open: ModelOptions = { factors: { liftFactor: 1.05, cd0Factor: 1.3, inducedFactor: 1.1 } };
+    const ducted = sweep(ductRig, { ...open, ductLosses: { shroudRealisation: 0.42 } }, 77, throttles);
+    const fit = calibrate(ductRig, ducted, { noise, parameters: ['shroudRealisation'], model: open });
+    expect(fit.converged).toBe(true);
+    expect(Math.abs(fit.parameters.shroudRealisation! - 0.42)).toBeLessThan(3 * fit.uncertainties.shroudRealisation!);
+    const onOpen = calibrate(openRig, sweep(openRig, open, 78, throttles), { noise, parameters: ['liftFactor', 'shroudRealisation'] });
+    expect(onOpen.degenerate).toBe(true);
+    expect(onOpen.degenerateReason).toMatch(/shroudRealisation/);
+  });
+});
+
 describe('duct effectiveness from measurements', () => {
   const A = diskArea(0.254);
   const rho = 1.2;

@@ -1,5 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import {
+  escDuty,
+  throttleForDuty,
   maxEfficiencyPoint,
   motorAtCurrent,
   operatingPointForThrust,
@@ -122,5 +124,27 @@ describe('operating point', () => {
     // 1 gf = 9.80665e-3 N (../shared/CHECKS.md).
     const op = solveOperatingPoint(dt, load, 0.5);
     expect(op.gramsPerWatt).toBeCloseTo(op.thrust_N / 9.80665e-3 / op.powerElectrical_W, 12);
+  });
+
+  it('an ESC throttle offset: no output below it, the same operating point at the duty it maps to', () => {
+    // d = (u - u0) / (1 - u0): the bottom of the range is dead, full throttle is still full duty.
+    const withOffset: Drivetrain = { ...dt, esc: { ...dt.esc, throttleOffset: 0.05 } };
+    expect(escDuty(withOffset.esc, 0.04)).toBe(0);
+    expect(escDuty(withOffset.esc, 1)).toBeCloseTo(1, 12);
+    expect(throttleForDuty(withOffset.esc, escDuty(withOffset.esc, 0.6))).toBeCloseTo(0.6, 12);
+    const idle = solveOperatingPoint(withOffset, load, 0.04);
+    expect(idle.stalled).toBe(true);
+    expect(idle.current_A).toBe(0);
+    for (const busV of [undefined, 15.5]) {
+      const a = solveOperatingPoint(withOffset, load, 0.6, busV);
+      const b = solveOperatingPoint(dt, load, escDuty(withOffset.esc, 0.6), busV);
+      expect(a.throttle).toBe(0.6);
+      expect(a.rpm).toBeCloseTo(b.rpm, 8);
+      expect(a.powerElectrical_W).toBeCloseTo(b.powerElectrical_W, 8);
+      expect(a.rpm).toBeLessThan(solveOperatingPoint(dt, load, 0.6, busV).rpm);
+      const back = operatingPointForThrust(withOffset, load, a.thrust_N, busV);
+      expect(back!.throttle).toBeCloseTo(0.6, 8);
+    }
+    expect(() => solveOperatingPoint({ ...dt, esc: { throttleOffset: 0.7 } }, load, 0.8)).toThrow(/throttleOffset/);
   });
 });

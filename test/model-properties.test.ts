@@ -10,7 +10,16 @@
 
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
-import { buildRigModel, operatingPointForThrust, parseRig, type RigSpec } from '../server/model/index.js';
+import {
+  buildRigModel,
+  DEFAULT_DUCT_LOSSES,
+  idealPowerRatio,
+  operatingPointForThrust,
+  parseRig,
+  realisedSigma,
+  type DuctLossFactors,
+  type RigSpec,
+} from '../server/model/index.js';
 
 interface Case {
   D: number;
@@ -51,8 +60,8 @@ function rigFor(c: Case, gapOverR: number, lipOverR: number): RigSpec {
   });
 }
 
-function powersAt(rig: RigSpec, thrust: number): { shaft: number; electrical: number | null } {
-  const m = buildRigModel(rig);
+function powersAt(rig: RigSpec, thrust: number, ductLosses?: Partial<DuctLossFactors>): { shaft: number; electrical: number | null } {
+  const m = buildRigModel(rig, { ductLosses });
   const w = m.load.omegaForThrust(thrust);
   const op = operatingPointForThrust(m.drivetrain, m.load, thrust, 60);
   return { shaft: m.load.torqueAt(w) * w, electrical: op ? op.powerElectrical_W : null };
@@ -105,5 +114,40 @@ describe('duct loss directions', () => {
     expect(sharp.sigmaEffective).toBeLessThan(base.sigmaEffective);
     expect(base.sigmaEffective).toBeLessThan(base.sigma);
     expect(sharp.sigmaEffective).toBeGreaterThan(0.5);
+  });
+
+  it('the shroud realisation keeps the stated fraction of the ideal saving: 1 is the ideal duct, 0 the open rotor', () => {
+    // Momentum theory (../shared/CHECKS.md): equal-thrust power ratio 1 / sqrt(2 sigma); the realised ratio is
+    // 1 - eta (1 - 1 / sqrt(2 sigma)) by the definition in duct-losses.ts.
+    fc.assert(
+      fc.property(fc.double({ min: 0.5, max: 1.6, noNaN: true }), fc.double({ min: 0, max: 1.5, noNaN: true }), (sigma, eta) => {
+        const s = realisedSigma(sigma, eta);
+        expect(idealPowerRatio(s)).toBeCloseTo(1 - eta * (1 - idealPowerRatio(sigma)), 10);
+      }),
+    );
+    expect(realisedSigma(1.1, 1)).toBeCloseTo(1.1, 12);
+    expect(realisedSigma(1.1, 0)).toBeCloseTo(0.5, 12);
+    expect(realisedSigma(0.5, 0.7)).toBe(0.5);
+    expect(() => realisedSigma(1.1, -0.1)).toThrow(/shroudRealisation/);
+    expect(() => realisedSigma(1.1, Number.NaN)).toThrow(/shroudRealisation/);
+  });
+
+  it('a larger shroud realisation never predicts more power at equal thrust, and gap and lip keep their directions under it', () => {
+    fc.assert(
+      fc.property(caseArb, fc.double({ min: 0, max: 1, noNaN: true }), fc.double({ min: 0, max: 0.5, noNaN: true }), (c, eta, more) => {
+        const rig = rigFor(c, c.gap, c.lip);
+        const a = powersAt(rig, c.thrust, { shroudRealisation: eta });
+        const b = powersAt(rig, c.thrust, { shroudRealisation: eta + more });
+        expect(b.shaft).toBeLessThanOrEqual(a.shaft * (1 + tol));
+        const wide = powersAt(rigFor(c, c.gap + 0.02, c.lip), c.thrust, { shroudRealisation: eta });
+        expect(wide.shaft).toBeGreaterThanOrEqual(a.shaft * (1 - tol));
+      }),
+      { numRuns: 150 },
+    );
+    const d = buildRigModel(rigFor({ D: 0.254, pd: 0.45, sigma: 1.2, length: 0.5, gap: 0.01, lip: 0.1, thrust: 6 }, 0.01, 0.1)).duct!;
+    expect(d.shroudRealisation).toBe(DEFAULT_DUCT_LOSSES.shroudRealisation);
+    expect(d.sigmaEffective).toBeCloseTo(realisedSigma(d.sigmaGeometric, d.shroudRealisation), 12);
+    expect(d.sigmaEffective).toBeLessThan(d.sigmaGeometric);
+    expect(d.sigmaEffective).toBeGreaterThan(0.5);
   });
 });

@@ -12,16 +12,37 @@
 // degenerate when the data cannot separate the parameters: a variance inflation factor (diagonal of the
 // inverse of the correlation-scaled J^T J) above 1e6, or a singular J^T J. A sweep at a single speed, for
 // example, cannot tell profile drag from induced power, since both only change the torque at that speed.
+//
+// Besides the aerodynamic factors and the motor constants, two parameters describe parts a rig file cannot:
+// the ESC's throttle offset (motor.ts; it shows in an open sweep as rpm falling short at low throttle) and the
+// shroud realisation (duct-losses.ts). The latter only moves a ducted rig, so it is fitted on ducted points
+// with the open sweep's factors held (pass them as `model`); on an open rig the fit reports it as degenerate.
 
 import { G0, newtonsToGramForce } from './constants.js';
 import { invertSymmetric, solveLinear } from './numeric.js';
 import { buildRigModel, measuredPower, predictAtThrottle, type MeasuredPoint, type ModelOptions, type RigModel } from './predict.js';
 import { idealPowerRatio, idealThrustRatio } from './momentum.js';
+import { DEFAULT_DUCT_LOSSES, SHROUD_REALISATION_MAX } from './duct-losses.js';
 import type { RigSpec } from './rig-types.js';
 
-export type FitParameter = 'liftFactor' | 'cd0Factor' | 'inducedFactor' | 'motorResistance' | 'motorNoLoadCurrent';
+export type FitParameter =
+  | 'liftFactor'
+  | 'cd0Factor'
+  | 'inducedFactor'
+  | 'motorResistance'
+  | 'motorNoLoadCurrent'
+  | 'escThrottleOffset'
+  | 'shroudRealisation';
 
-export const FIT_PARAMETERS: readonly FitParameter[] = ['liftFactor', 'cd0Factor', 'inducedFactor', 'motorResistance', 'motorNoLoadCurrent'];
+export const FIT_PARAMETERS: readonly FitParameter[] = [
+  'liftFactor',
+  'cd0Factor',
+  'inducedFactor',
+  'motorResistance',
+  'motorNoLoadCurrent',
+  'escThrottleOffset',
+  'shroudRealisation',
+];
 
 const BOUNDS: Record<FitParameter, [number, number]> = {
   liftFactor: [0.2, 5],
@@ -29,6 +50,8 @@ const BOUNDS: Record<FitParameter, [number, number]> = {
   inducedFactor: [0.2, 5],
   motorResistance: [1e-4, 20],
   motorNoLoadCurrent: [0, 50],
+  escThrottleOffset: [0, 0.3],
+  shroudRealisation: [0, SHROUD_REALISATION_MAX],
 };
 
 export class CalibrationError extends Error {
@@ -79,6 +102,8 @@ export interface CalibrationResult {
 function applyParams(base: ModelOptions, names: readonly FitParameter[], p: readonly number[]): ModelOptions {
   const factors = { ...base.factors };
   const motor = { ...base.motor };
+  const esc = { ...base.esc };
+  const ductLosses = { ...base.ductLosses };
   names.forEach((name, j) => {
     const v = p[j];
     switch (name) {
@@ -93,9 +118,15 @@ function applyParams(base: ModelOptions, names: readonly FitParameter[], p: read
       case 'motorNoLoadCurrent':
         motor.noLoadCurrent_a = v;
         break;
+      case 'escThrottleOffset':
+        esc.throttleOffset = v;
+        break;
+      case 'shroudRealisation':
+        ductLosses.shroudRealisation = v;
+        break;
     }
   });
-  return { ...base, factors, motor };
+  return { ...base, factors, motor, esc, ductLosses };
 }
 
 function initialValue(rig: RigSpec, base: ModelOptions, name: FitParameter): number {
@@ -108,6 +139,10 @@ function initialValue(rig: RigSpec, base: ModelOptions, name: FitParameter): num
       return base.motor?.resistance_ohm ?? rig.motor.resistance_ohm;
     case 'motorNoLoadCurrent':
       return base.motor?.noLoadCurrent_a ?? rig.motor.no_load_current_a;
+    case 'escThrottleOffset':
+      return base.esc?.throttleOffset ?? 0;
+    case 'shroudRealisation':
+      return base.ductLosses?.shroudRealisation ?? DEFAULT_DUCT_LOSSES.shroudRealisation;
   }
 }
 
@@ -169,7 +204,7 @@ export function calibrate(rig: RigSpec, points: readonly MeasuredPoint[], opts: 
   const jacobian = (p: readonly number[], r0: readonly number[]): number[][] => {
     const J = r0.map(() => new Array<number>(n).fill(0));
     for (let j = 0; j < n; j++) {
-      const typical = names[j] === 'motorNoLoadCurrent' ? 0.1 : names[j] === 'motorResistance' ? 0.01 : 0.1;
+      const typical = names[j] === 'motorResistance' ? 0.01 : names[j] === 'escThrottleOffset' ? 0.01 : 0.1;
       let h = 1e-5 * Math.max(Math.abs(p[j]), typical);
       // Step inwards at an upper bound so the perturbed point stays inside the model's domain.
       if (p[j] + h > BOUNDS[names[j]][1]) h = -h;

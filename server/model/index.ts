@@ -43,6 +43,8 @@ export {
   lipRetention,
   attachedSigma,
   diffuserLength,
+  realisedSigma,
+  SHROUD_REALISATION_MAX,
   type DuctLossFactors,
   type DuctCondition,
 } from './duct-losses.js';
@@ -52,6 +54,8 @@ export {
   solveOperatingPoint,
   operatingPointForThrust,
   kvRadPerSecPerVolt,
+  escDuty,
+  throttleForDuty,
   type MotorParams,
   type EscParams,
   type SupplyParams,

@@ -6,7 +6,11 @@
 // keeps it constant. Iron losses make it grow with speed on real motors, so an optional exponent e scales it
 // as i0 (Omega / Omega0)^e, Omega0 being the free-running speed at the no-load voltage; e = 0 (the default)
 // is Drela's model exactly.
-// ESC: throttle d is the duty cycle and scales the bus voltage, v_motor = d V_bus - i R_esc. Losses are either
+// ESC: throttle u sets the duty cycle d, which scales the bus voltage, v_motor = d V_bus - i R_esc. By default
+// d = u. Many ESCs hold the output off over the bottom of the pulse range and then spread the rest over the
+// full duty range (common practice: a start threshold of a few percent of the range); an optional throttle
+// offset u0 models that as d = max(0, (u - u0) / (1 - u0)). It matters most at low throttle, where a few
+// percent of duty are a large share of the motor voltage. Losses are either
 // a constant efficiency (the ESC draws P_out / eta from the bus: i_bus = d i / eta) or a series resistance
 // (i_bus = d i, and the i^2 R_esc loss appears through the lower motor voltage). Neither given: lossless.
 // Supply: V_bus = V_open - R_internal i_bus, unless the bench measured V_bus, which then already contains
@@ -30,6 +34,26 @@ export interface MotorParams {
 export interface EscParams {
   efficiency?: number;
   resistance_ohm?: number;
+  /** Throttle fraction below which the ESC gives no output (0 = duty equals throttle). */
+  throttleOffset?: number;
+}
+
+/** Duty cycle the ESC gives at a throttle: d = max(0, (u - u0) / (1 - u0)). */
+export function escDuty(esc: EscParams, throttle: number): number {
+  const u0 = esc.throttleOffset ?? 0;
+  if (u0 === 0) return throttle;
+  return Math.max(0, (throttle - u0) / (1 - u0));
+}
+
+/** Throttle that gives a duty cycle (the inverse of escDuty above the offset). */
+export function throttleForDuty(esc: EscParams, duty: number): number {
+  const u0 = esc.throttleOffset ?? 0;
+  return u0 + duty * (1 - u0);
+}
+
+function checkEsc(esc: EscParams): void {
+  const u0 = esc.throttleOffset ?? 0;
+  if (!(Number.isFinite(u0) && u0 >= 0 && u0 < 0.5)) throw new RangeError(`esc.throttleOffset: must be within 0..0.5 (got ${u0})`);
 }
 
 export interface SupplyParams {
@@ -133,13 +157,14 @@ function finish(
   dt: Drivetrain,
   load: PropellerLoad,
   throttle: number,
+  duty: number,
   vBus: number,
   iMotor: number,
   omega: number,
   stalled: boolean,
 ): OperatingPoint {
-  const vMotor = throttle * vBus - iMotor * (dt.esc.resistance_ohm ?? 0);
-  const iBus = throttle * iMotor * escCurrentRatio(dt.esc);
+  const vMotor = duty * vBus - iMotor * (dt.esc.resistance_ohm ?? 0);
+  const iBus = duty * iMotor * escCurrentRatio(dt.esc);
   const torque = stalled ? 0 : load.torqueAt(omega);
   const thrust = stalled ? 0 : load.thrustAt(omega);
   const pElec = vBus * iBus;
@@ -173,6 +198,7 @@ function checkThrottle(throttle: number): void {
  */
 export function solveOperatingPoint(dt: Drivetrain, load: PropellerLoad, throttle: number, busVoltage_V?: number): OperatingPoint {
   checkThrottle(throttle);
+  checkEsc(dt.esc);
   const m = dt.motor;
   const kv = kvRadPerSecPerVolt(m.kv_rpm_per_v);
   const rEsc = dt.esc.resistance_ohm ?? 0;
@@ -181,24 +207,25 @@ export function solveOperatingPoint(dt: Drivetrain, load: PropellerLoad, throttl
   if (measured && !(Number.isFinite(busVoltage_V) && busVoltage_V > 0)) {
     throw new RangeError(`busVoltage_V: must be a positive finite number (got ${busVoltage_V})`);
   }
+  const d = escDuty(dt.esc, throttle);
   const vBusAt = (iMotor: number): number =>
-    measured ? (busVoltage_V as number) : dt.supply.openCircuit_v - dt.supply.internalResistance_ohm * throttle * iMotor * busRatio;
-  if (throttle === 0) return finish(dt, load, 0, vBusAt(0), 0, 0, true);
-  const omegaAt = (i: number): number => kv * (throttle * vBusAt(i) - i * (rEsc + m.resistance_ohm));
+    measured ? (busVoltage_V as number) : dt.supply.openCircuit_v - dt.supply.internalResistance_ohm * d * iMotor * busRatio;
+  if (d === 0) return finish(dt, load, throttle, 0, vBusAt(0), 0, 0, true);
+  const omegaAt = (i: number): number => kv * (d * vBusAt(i) - i * (rEsc + m.resistance_ohm));
   // Current at which the motor stops: d V(i) = i (R + R_esc), linear in i.
-  const rSupply = measured ? 0 : dt.supply.internalResistance_ohm * throttle * throttle * busRatio;
+  const rSupply = measured ? 0 : dt.supply.internalResistance_ohm * d * d * busRatio;
   const vOpen = measured ? (busVoltage_V as number) : dt.supply.openCircuit_v;
-  const iStop = (throttle * vOpen) / (m.resistance_ohm + rEsc + rSupply);
+  const iStop = (d * vOpen) / (m.resistance_ohm + rEsc + rSupply);
   const residual = (i: number): number => {
     const w = Math.max(0, omegaAt(i));
     return (i - noLoadCurrentAt(m, w)) / kv - load.torqueAt(w);
   };
   if (!(residual(iStop) > 0)) {
     // Not even the no-load current flows against the motor's friction: it stands still, drawing v / R.
-    return finish(dt, load, throttle, vBusAt(iStop), iStop, 0, true);
+    return finish(dt, load, throttle, d, vBusAt(iStop), iStop, 0, true);
   }
   const i = solveBracketed(residual, 0, iStop, 1e-12, 200);
-  return finish(dt, load, throttle, vBusAt(i), i, Math.max(0, omegaAt(i)), false);
+  return finish(dt, load, throttle, d, vBusAt(i), i, Math.max(0, omegaAt(i)), false);
 }
 
 /**
@@ -213,12 +240,13 @@ export function operatingPointForThrust(
 ): OperatingPoint | null {
   if (!(Number.isFinite(thrust_N) && thrust_N >= 0)) throw new RangeError(`thrust_N: must be a non-negative finite number (got ${thrust_N})`);
   if (thrust_N === 0) return solveOperatingPoint(dt, load, 0, busVoltage_V);
+  checkEsc(dt.esc);
   const m = dt.motor;
   const kv = kvRadPerSecPerVolt(m.kv_rpm_per_v);
   const omega = load.omegaForThrust(thrust_N);
   if (!(omega > 0)) return null;
   const iMotor = noLoadCurrentAt(m, omega) + kv * load.torqueAt(omega);
-  // Voltage the ESC must deliver (motor back-EMF and resistive drops) from throttle d: d V_bus(d) = vNeed.
+  // Voltage the ESC must deliver (motor back-EMF and resistive drops) from duty d: d V_bus(d) = vNeed.
   const vNeed = omega / kv + iMotor * (m.resistance_ohm + (dt.esc.resistance_ohm ?? 0));
   let d: number;
   let vBus: number;
@@ -238,5 +266,6 @@ export function operatingPointForThrust(
     vBus = V - a * d;
   }
   if (!(d <= 1 + 1e-12)) return null;
-  return finish(dt, load, Math.min(1, d), vBus, iMotor, omega, false);
+  const duty = Math.min(1, d);
+  return finish(dt, load, throttleForDuty(dt.esc, duty), duty, vBus, iMotor, omega, false);
 }

@@ -36,6 +36,8 @@ export interface ModelOptions {
   /** Blade stations (default 40). */
   stations?: number;
   tipLoss?: boolean;
+  /** ESC throttle offset (see motor.ts); the rig file has no field for it, calibration fits it. */
+  esc?: { throttleOffset?: number };
   /** Overrides of the rig's motor constants (calibration fits these). */
   motor?: Partial<Pick<MotorParams, 'resistance_ohm' | 'noLoadCurrent_a' | 'noLoadCurrentExponent'>>;
   /** Supply open-circuit voltage; default from the rig's cells or voltage_v. */
@@ -98,7 +100,7 @@ export function buildRigModel(rig: RigSpec, opts: ModelOptions = {}): RigModel {
       noLoadVoltage_v: rig.motor.no_load_voltage_v,
       noLoadCurrentExponent: opts.motor?.noLoadCurrentExponent ?? 0,
     },
-    esc: { efficiency: rig.esc.efficiency, resistance_ohm: rig.esc.resistance_ohm },
+    esc: { efficiency: rig.esc.efficiency, resistance_ohm: rig.esc.resistance_ohm, throttleOffset: opts.esc?.throttleOffset ?? 0 },
     supply: { openCircuit_v, internalResistance_ohm: s.internal_resistance_ohm },
   };
   return { rig, air, geometry, duct, rotor, source: useTable ? 'table' : 'bemt', load, drivetrain };
