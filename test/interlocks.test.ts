@@ -161,6 +161,21 @@ describe('sample rules', () => {
     expect(w.warnings).toContain('prediction_deviation');
   });
 
+  it('prediction deviation: a slow thrust channel between fast electrical frames is weighted by its own clock', () => {
+    // thrust at 80 Hz, power at 500 Hz (as the bridge ADC and the electrical channels of a real bench)
+    const gpw = 5 / 9.80665e-3 / 155; // 3.29 g/W measured
+    const h = harness({ deviation_warn_pct: 5, deviation_trip_pct: 10 }, { predictor: () => gpw });
+    for (let i = 0; i < 1500; i++) h.feed({ thrust: i % 6 === 0 ? 5 : null }, 2, 2);
+    expect(h.bench.trips).toEqual([]);
+    expect(h.warnings).not.toContain('prediction_deviation');
+  });
+
+  it('a slow channel past its limit trips although most frames do not carry it (debounce survives gaps)', () => {
+    const h = harness({ max_thrust_n: 4 });
+    for (let i = 0; i < 100; i++) h.feed({ thrust: i % 6 === 0 ? 6 : null }, 2, 2);
+    expect(h.bench.trips[0]?.rule).toBe('max_thrust');
+  });
+
   it('nothing trips while tripped or disconnected, and safe-only rules stay quiet when disarmed', () => {
     const h = harness({ max_current_a: 30 });
     h.bench.state = 'tripped';

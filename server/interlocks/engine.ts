@@ -6,7 +6,7 @@ import type { BenchState } from '../api/messages.js';
 import type { Sample } from '../bench/telemetry.js';
 import { TypedEmitter } from '../util/emitter.js';
 import type { Limits } from './limits.js';
-import { RULES, type Finding, type Rule, type RuleContext } from './rules.js';
+import { OK, RULES, type Finding, type Rule, type RuleContext, type Verdict } from './rules.js';
 
 /** What the engine needs of the bench: its state, and the cut. */
 export interface TripTarget {
@@ -137,6 +137,7 @@ export class Interlocks extends TypedEmitter<InterlockEvents> {
   private emaThrust: number | null = null;
   private emaPower: number | null = null;
   private lastEmaT: number | null = null;
+  private lastThrustEmaT: number | null = null;
   private outputChangedAt = 0;
   private lastPredictionAt = -Infinity;
   private predicted: number | null = null;
@@ -172,7 +173,7 @@ export class Interlocks extends TypedEmitter<InterlockEvents> {
     this.trend.reset();
     this.exceededSince.clear();
     this.lastFrameAt = this.lastThrustAt = null;
-    this.emaThrust = this.emaPower = this.lastEmaT = null;
+    this.emaThrust = this.emaPower = this.lastEmaT = this.lastThrustEmaT = null;
     this.outputZeroSince = null;
   }
 
@@ -246,9 +247,11 @@ export class Interlocks extends TypedEmitter<InterlockEvents> {
   }
 
   /** Returns true when the finding tripped the bench. */
-  private handle(rule: Rule, f: Finding | null, now: number, arrivedAt: number, s: Sample | null, immediate = false): boolean {
-    if (!f || f.level !== 'trip') this.exceededSince.delete(rule.name);
-    if (!f) return false;
+  private handle(rule: Rule, v: Verdict, now: number, arrivedAt: number, s: Sample | null, immediate = false): boolean {
+    if (v === null) return false; // nothing to judge in this sample: a pending debounce keeps running
+    if (v === OK || v.level !== 'trip') this.exceededSince.delete(rule.name);
+    if (v === OK) return false;
+    const f: Finding = v;
     if (f.level === 'trip') {
       const st = this.target.state;
       if (st === 'tripped' || st === 'disconnected') return false;
@@ -272,11 +275,19 @@ export class Interlocks extends TypedEmitter<InterlockEvents> {
   }
 
   private updateEfficiency(s: Sample, now: number): void {
+    // Each channel's smoothing weight follows its own sampling interval: thrust arrives at 10-80 Hz,
+    // power at hundreds of Hz; one shared clock would starve the slower channel.
     const tau = 500; // ms
-    const a = this.lastEmaT === null ? 1 : 1 - Math.exp(-(now - this.lastEmaT) / tau);
-    if (s.thrust !== null) this.emaThrust = this.emaThrust === null ? s.thrust : this.emaThrust + a * (s.thrust - this.emaThrust);
-    if (s.power !== null) this.emaPower = this.emaPower === null ? s.power : this.emaPower + a * (s.power - this.emaPower);
-    this.lastEmaT = now;
+    if (s.thrust !== null) {
+      const a = this.lastThrustEmaT === null ? 1 : 1 - Math.exp(-(now - this.lastThrustEmaT) / tau);
+      this.emaThrust = this.emaThrust === null ? s.thrust : this.emaThrust + a * (s.thrust - this.emaThrust);
+      this.lastThrustEmaT = now;
+    }
+    if (s.power !== null) {
+      const a = this.lastEmaT === null ? 1 : 1 - Math.exp(-(now - this.lastEmaT) / tau);
+      this.emaPower = this.emaPower === null ? s.power : this.emaPower + a * (s.power - this.emaPower);
+      this.lastEmaT = now;
+    }
     const p = this.opts.predictor;
     if (p && s.voltage !== null && now - this.lastPredictionAt > 100) {
       this.lastPredictionAt = now;

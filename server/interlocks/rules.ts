@@ -46,13 +46,21 @@ export interface RuleContext {
   badLinesLastSecond: number;
 }
 
+/**
+ * A rule's answer: a finding, OK (looked and found nothing wrong), or null (nothing to look at in this
+ * sample, e.g. the thrust channel was not sampled in this frame). Only OK clears a pending debounce: an
+ * 80 Hz thrust reading between 500 Hz electrical frames must not restart the clock on every frame.
+ */
+export const OK = 'ok' as const;
+export type Verdict = Finding | typeof OK | null;
+
 export interface Rule {
   /** Stable identifier: appears in trip records, sessions and `run --json`. */
   readonly name: string;
   /** For people: what the rule protects against. */
   readonly reason: string;
-  sample?(s: Sample, c: RuleContext): Finding | null;
-  tick?(c: RuleContext): Finding | null;
+  sample?(s: Sample, c: RuleContext): Verdict;
+  tick?(c: RuleContext): Verdict;
 }
 
 const fmt = (x: number, d = 1) => x.toFixed(d);
@@ -69,7 +77,7 @@ function ceiling(name: string, reason: string, channel: 'current' | 'power' | 't
       const mag = Math.abs(v);
       if (mag > lim) return { level: 'trip', value: v, limit: lim, detail: `${channel} ${fmt(mag)} ${unit} above ${fmt(lim)} ${unit}` };
       if (mag > warnAt * lim) return { level: 'warn', value: v, limit: lim, detail: `${channel} ${fmt(mag)} ${unit} near the limit ${fmt(lim)} ${unit}` };
-      return null;
+      return OK;
     },
   };
 }
@@ -87,7 +95,7 @@ export const RULES: readonly Rule[] = [
       const lim = c.limits.max_temp_c;
       if (s.temp > lim) return { level: 'trip', value: s.temp, limit: lim, detail: `motor ${fmt(s.temp)} °C above ${fmt(lim)} °C` };
       if (s.temp > lim - c.limits.temp_warn_margin_c) return { level: 'warn', value: s.temp, limit: lim, detail: `motor ${fmt(s.temp)} °C within ${fmt(c.limits.temp_warn_margin_c)} °C of its limit` };
-      return null;
+      return OK;
     },
   },
   {
@@ -99,7 +107,7 @@ export const RULES: readonly Rule[] = [
       const mach = tip / c.speedOfSound;
       if (mach > c.limits.tip_mach_trip) return { level: 'trip', value: mach, limit: c.limits.tip_mach_trip, detail: `tip Mach ${fmt(mach, 2)} (${fmt(tip, 0)} m/s) above ${fmt(c.limits.tip_mach_trip, 2)}` };
       if (mach > c.limits.tip_mach_warn) return { level: 'warn', value: mach, limit: c.limits.tip_mach_trip, detail: `tip Mach ${fmt(mach, 2)} rising (warn at ${fmt(c.limits.tip_mach_warn, 2)})` };
-      return null;
+      return OK;
     },
   },
   {
@@ -111,7 +119,7 @@ export const RULES: readonly Rule[] = [
       const warn = c.limits.cell_warn_v * c.cells;
       if (s.voltage < trip) return { level: 'trip', value: s.voltage, limit: trip, detail: `pack ${fmt(s.voltage, 2)} V below ${fmt(trip, 2)} V (${c.cells} cells × ${c.limits.min_cell_v} V)` };
       if (s.voltage < warn) return { level: 'warn', value: s.voltage, limit: trip, detail: `pack ${fmt(s.voltage, 2)} V: ${fmt(s.voltage / c.cells, 2)} V per cell` };
-      return null;
+      return OK;
     },
   },
   {
@@ -124,7 +132,7 @@ export const RULES: readonly Rule[] = [
       const lim = c.limits.vibration_std_n;
       if (v > lim) return { level: 'trip', value: v, limit: lim, detail: `thrust fluctuates ±${fmt(v, 2)} N (limit ±${fmt(lim, 2)} N)` };
       if (v > 0.7 * lim) return { level: 'warn', value: v, limit: lim, detail: `thrust fluctuation ±${fmt(v, 2)} N rising` };
-      return null;
+      return OK;
     },
   },
   {
@@ -133,7 +141,7 @@ export const RULES: readonly Rule[] = [
     sample(s, c) {
       if (s.thrust === null || c.outputZeroSince === null || c.now - c.outputZeroSince < 1500) return null;
       const lim = c.limits.zero_throttle_thrust_n;
-      if (Math.abs(s.thrust) <= lim) return null;
+      if (Math.abs(s.thrust) <= lim) return OK;
       // Disarmed, nothing to cut: tell the operator before they arm.
       return { level: c.mayTurn ? 'trip' : 'warn', value: s.thrust, limit: lim, detail: `${fmt(s.thrust, 2)} N with the output at zero (limit ${fmt(lim, 2)} N)` };
     },
@@ -147,7 +155,7 @@ export const RULES: readonly Rule[] = [
       const mag = Math.abs(dev);
       if (mag > c.limits.deviation_trip_pct) return { level: 'trip', value: dev, limit: c.limits.deviation_trip_pct, detail: `grams per watt ${fmt(dev)} % from the prediction (trip at ±${c.limits.deviation_trip_pct} %)` };
       if (mag > c.limits.deviation_warn_pct) return { level: 'warn', value: dev, limit: c.limits.deviation_trip_pct, detail: `grams per watt ${fmt(dev)} % from the prediction` };
-      return null;
+      return OK;
     },
   },
   {
@@ -156,7 +164,7 @@ export const RULES: readonly Rule[] = [
     tick(c) {
       if (!c.mayTurn || c.lastFrameAt === null) return null;
       const age = c.now - c.lastFrameAt;
-      return age > c.limits.stale_ms ? { level: 'trip', value: age, limit: c.limits.stale_ms, detail: `no telemetry for ${fmt(age, 0)} ms` } : null;
+      return age > c.limits.stale_ms ? { level: 'trip', value: age, limit: c.limits.stale_ms, detail: `no telemetry for ${fmt(age, 0)} ms` } : OK;
     },
   },
   {
@@ -165,7 +173,7 @@ export const RULES: readonly Rule[] = [
     tick(c) {
       if (!c.mayTurn || c.lastThrustAt === null) return null;
       const age = c.now - c.lastThrustAt;
-      return age > c.limits.thrust_stale_ms ? { level: 'trip', value: age, limit: c.limits.thrust_stale_ms, detail: `no thrust reading for ${fmt(age, 0)} ms` } : null;
+      return age > c.limits.thrust_stale_ms ? { level: 'trip', value: age, limit: c.limits.thrust_stale_ms, detail: `no thrust reading for ${fmt(age, 0)} ms` } : OK;
     },
   },
   {
@@ -174,7 +182,7 @@ export const RULES: readonly Rule[] = [
     tick(c) {
       const n = c.badLinesLastSecond;
       const lim = c.limits.bad_line_burst;
-      if (n <= lim) return null;
+      if (n <= lim) return OK;
       return { level: c.mayTurn ? 'trip' : 'warn', value: n, limit: lim, detail: `${n} bad lines in the last second (limit ${lim})` };
     },
   },
