@@ -52,7 +52,7 @@ export interface RunHooks {
   record?: (ctx: RunRecordContext) => RunRecordHook | null | Promise<RunRecordHook | null>;
   /** Extra daemon options (tests: a noise seed, limit overrides). */
   daemon?: Partial<DaemonOptions>;
-  /** Told when the runner exists, before it starts (tests drive faults and signals from here). */
+  /** Told when the runner exists, before its checks (tests drive faults and signals from here). */
   onRunner?: (runner: SequenceRunner, daemon: RunningDaemon) => void;
 }
 
@@ -293,6 +293,7 @@ async function runInner(argv: string[], io: RunIo, hooks: RunHooks, say: (s: str
       predict: rigInUse && hooks.predictorFor ? hooks.predictorFor(rigInUse) : null,
     });
 
+    hooks.onRunner?.(runner, daemon);
     const issues = runner.check();
     if (issues.length) {
       for (const i of issues) say(formatIssue(i));
@@ -331,7 +332,6 @@ async function runInner(argv: string[], io: RunIo, hooks: RunHooks, say: (s: str
       if (!runner.cut(sig)) daemon.controller.stop(`run: ${sig}`);
     });
 
-    hooks.onRunner?.(runner, daemon);
     io.stderr(`ductbench run: ${plan.name}: ${n} step${n === 1 ? '' : 's'} on ${daemon.link.view().source}\n`);
     const started = runner.start();
     // Faults are timed from the start of the run, on the device's clock (which follows real time).

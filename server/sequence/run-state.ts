@@ -111,6 +111,7 @@ export function nextRunState(state: RunState, input: RunInput): RunTransition | 
     case 'resume':
       return state === 'paused' ? to('preparing', `resumed by ${input.source}: arming again`) : null;
     case 'abort':
+      if (state === 'idle') return null;
       if (state === 'paused') return to('aborted', `aborted by ${input.source} while paused (already disarmed)`);
       if (state === 'aborting') return null;
       return to('aborting', `aborted by ${input.source}: ramping down and disarming`);

@@ -153,7 +153,7 @@ class Checker {
     const u = opts.unit ?? '';
     const loOk = opts.loOpen ? v > lo : v >= lo;
     if (!loOk || v > hi) {
-      this.fail(p, `${v}${u} is outside ${opts.loOpen ? `above ${lo}` : lo}..${hi}${u}`);
+      this.fail(p, opts.loOpen ? `${v}${u} must be above ${lo}${u} and at most ${hi}${u}` : `${v}${u} is outside ${lo}..${hi}${u}`);
       return undefined;
     }
     return v;
