@@ -1,5 +1,5 @@
 // GENERATED from firmware-protocol/src/messages.ts by firmware-protocol/firmware/tools/protocol-table.ts.
-// Do not edit: run DUCTBENCH_WRITE_FW_TABLE=1 npx vitest run test/firmware.test.ts
+// Do not edit: run DUCTBENCH_WRITE_FW_TABLE=1 npx vitest run test/firmware-table.test.ts
 
 #pragma once
 
