@@ -91,6 +91,10 @@ describe('sequence validation', () => {
     const issues = issuesOf(() => loadSequence({ name: 'short', settle: { window_s: 1 }, steps: [{ throttle: 0.2, hold_s: 0.5 }, { staircase: { start: 0.3, stop: 0.5, step: 0.1, hold_s: 0.8 } }] }));
     expect(paths(issues)).toEqual(['steps[0].hold_s', 'steps[1].staircase.hold_s']);
     expect(issues[0].rule).toBe('0.5 s is shorter than the settle window (settle.window_s = 1 s)');
+    // an inherited hold is reported where it is written, once
+    const inherited = issuesOf(() => loadSequence({ name: 'd', defaults: { hold_s: 0.4 }, steps: [{ throttle: 0.2 }, { up_down: { start: 0.1, peak: 0.3, step: 0.1 } }] }));
+    expect(inherited.map(formatIssue)).toEqual(['defaults.hold_s: 0.4 s is shorter than the settle window (settle.window_s = 0.5 s)']);
+    expect(paths(issuesOf(() => loadSequence({ name: 'b', settle: { window_s: 6 }, steps: [{ throttle: 0.2 }] })))).toEqual(['defaults.hold_s']);
   });
 
   it('reports text that is not JSON as a sequence error', () => {

@@ -9,18 +9,28 @@ import type { ChannelSettle, PlannedStep, SequencePlan, SettleParams, StepTiming
 
 export const DEFAULT_COOL_DOWN_MAX_S = 600;
 
-function resolveTiming(own: TimingFields, inherited: StepTiming): StepTiming {
-  return { ramp_s: own.ramp_s ?? inherited.ramp_s, hold_s: own.hold_s ?? inherited.hold_s, window_s: own.window_s ?? inherited.window_s };
+interface BaseTiming extends StepTiming {
+  /** Where an inherited hold_s comes from, for error messages. */
+  holdOrigin: string;
 }
 
-type Draft = Omit<PlannedStep, 'index'>;
+function resolveTiming(own: TimingFields, inherited: BaseTiming, path: string): StepTiming & { holdOrigin: string } {
+  return {
+    ramp_s: own.ramp_s ?? inherited.ramp_s,
+    hold_s: own.hold_s ?? inherited.hold_s,
+    window_s: own.window_s ?? inherited.window_s,
+    holdOrigin: own.hold_s !== undefined ? `${path}.hold_s` : inherited.holdOrigin,
+  };
+}
 
-function expandItems(items: readonly StepItemSpec[], path: string, base: StepTiming, pass: number[], out: Draft[]): void {
+type Draft = Omit<PlannedStep, 'index'> & { holdOrigin: string };
+
+function expandItems(items: readonly StepItemSpec[], path: string, base: BaseTiming, pass: number[], out: Draft[]): void {
   items.forEach((item, i) => {
     const p = `${path}[${i}]`;
     if ('staircase' in item) {
       const s = item.staircase;
-      const t = resolveTiming(s, base);
+      const t = resolveTiming(s, base, `${p}.staircase`);
       const values = staircaseValues(s.start, s.stop, s.step) as number[];
       const bound = s.stop >= s.start ? { origin: `${p}.staircase.stop`, originValue: s.stop } : { origin: `${p}.staircase.start`, originValue: s.start };
       values.forEach((v, k) => {
@@ -29,7 +39,7 @@ function expandItems(items: readonly StepItemSpec[], path: string, base: StepTim
       });
     } else if ('up_down' in item) {
       const s = item.up_down;
-      const t = resolveTiming(s, base);
+      const t = resolveTiming(s, base, `${p}.up_down`);
       const up = staircaseValues(s.start, s.peak, s.step) as number[];
       const peak = { origin: `${p}.up_down.peak`, originValue: s.peak };
       up.forEach((v, k) => out.push({ throttle: v, ...t, ...(k === 0 ? { origin: `${p}.up_down.start`, originValue: s.start } : peak), direction: 'up', label: null, pass: [...pass] }));
@@ -43,7 +53,7 @@ function expandItems(items: readonly StepItemSpec[], path: string, base: StepTim
         if (out.length > MAX_EXPANDED_STEPS) return;
       }
     } else {
-      out.push({ throttle: item.throttle, ...resolveTiming(item, base), origin: `${p}.throttle`, originValue: item.throttle, direction: null, label: item.label ?? null, pass: [...pass] });
+      out.push({ throttle: item.throttle, ...resolveTiming(item, base, p), origin: `${p}.throttle`, originValue: item.throttle, direction: null, label: item.label ?? null, pass: [...pass] });
     }
   });
 }
@@ -61,23 +71,21 @@ function settleParams(spec: SequenceSpec): SettleParams {
 
 /** Expands generators into the flat step list. Throws SequenceError for plans that cannot be run as written. */
 export function planSequence(spec: SequenceSpec): SequencePlan {
-  const base = resolveTiming(spec.defaults ?? {}, DEFAULT_TIMING);
+  const base = resolveTiming(spec.defaults ?? {}, { ...DEFAULT_TIMING, holdOrigin: 'defaults.hold_s' }, 'defaults');
   const drafts: Draft[] = [];
   expandItems(spec.steps, 'steps', base, [], drafts);
   const issues: SequenceIssue[] = [];
   if (drafts.length > MAX_EXPANDED_STEPS) issues.push({ path: 'steps', rule: `expands to more than ${MAX_EXPANDED_STEPS} steps` });
   const settle = settleParams(spec);
-  const steps = drafts.map((d, index) => ({ index, ...d }));
   // hold_s is the longest settle wait; shorter than the settle window, the criterion could never be met.
   const seen = new Set<string>();
-  for (const s of steps) {
-    if (s.hold_s < settle.window_s) {
-      const key = s.origin.replace(/\.(throttle|start|stop|peak)$/, '');
-      if (seen.has(key)) continue;
-      seen.add(key);
-      issues.push({ path: `${key}.hold_s`, rule: `${s.hold_s} s is shorter than the settle window (settle.window_s = ${settle.window_s} s)` });
+  for (const d of drafts) {
+    if (d.hold_s < settle.window_s && !seen.has(d.holdOrigin)) {
+      seen.add(d.holdOrigin);
+      issues.push({ path: d.holdOrigin, rule: `${d.hold_s} s is shorter than the settle window (settle.window_s = ${settle.window_s} s)` });
     }
   }
+  const steps: PlannedStep[] = drafts.map(({ holdOrigin: _h, ...d }, index) => ({ index, ...d }));
   if (issues.length) throw new SequenceError(issues);
   const cd = spec.cool_down;
   return {

@@ -48,7 +48,7 @@ export type RunInput =
   | { kind: 'resume'; source: string }
   | { kind: 'abort'; source: string }
   | { kind: 'cut'; source: string }
-  | { kind: 'down' }
+  | { kind: 'down'; note?: string }
   | { kind: 'trip'; detail: string }
   | { kind: 'lost'; why: string };
 
@@ -117,11 +117,13 @@ export function nextRunState(state: RunState, input: RunInput): RunTransition | 
       return to('aborting', `aborted by ${input.source}: ramping down and disarming`);
     case 'cut':
       return state === 'idle' ? null : to('aborted', `emergency cut by ${input.source}: stop written to the device`);
-    case 'down':
-      if (state === 'finishing') return to('completed', 'every step measured; throttle zero and disarmed');
-      if (state === 'pausing') return to('paused', 'throttle zero and disarmed');
-      if (state === 'aborting') return to('aborted', 'throttle zero and disarmed');
+    case 'down': {
+      const how = input.note ? `throttle zero; ${input.note}` : 'throttle zero and disarmed';
+      if (state === 'finishing') return to('completed', `every step measured; ${how}`);
+      if (state === 'pausing') return to('paused', how);
+      if (state === 'aborting') return to('aborted', how);
       return null;
+    }
     case 'trip':
       return state === 'idle' ? null : to('tripped', input.detail);
     case 'lost':

@@ -445,7 +445,7 @@ export class SequenceRunner extends TypedEmitter<RunnerEvents> {
       if (settled) return;
       settled = true;
       this.bench.controller.stop('sequence: disarm not acknowledged');
-      this.fire({ kind: 'down' });
+      this.fire({ kind: 'down', note: `DISARM not acknowledged within ${timeout} ms, cut with STOP` });
     }, timeout);
     this.bench.controller.disarm().then(
       () => {
@@ -454,13 +454,13 @@ export class SequenceRunner extends TypedEmitter<RunnerEvents> {
         clearTimeout(timer);
         this.fire({ kind: 'down' });
       },
-      () => {
+      (err: Error) => {
         if (settled) return;
         settled = true;
         clearTimeout(timer);
         // The device did not take the DISARM: cut it the hard way (the output is at zero already).
         if (isLive(this.stateValue)) this.bench.controller.stop('sequence: disarm failed');
-        this.fire({ kind: 'down' });
+        this.fire({ kind: 'down', note: `DISARM failed (${err.message}), cut with STOP` });
       },
     );
   }
@@ -555,7 +555,7 @@ export class SequenceRunner extends TypedEmitter<RunnerEvents> {
       // Winding down anyway: the device being disarmed is where we were going.
       else if (isWindingDown(st) && !this.disarmStarted) {
         this.disarmStarted = true;
-        this.fire({ kind: 'down' });
+        this.fire({ kind: 'down', note: `the device disarmed by itself (${tr.reason})` });
       }
     }
   }
