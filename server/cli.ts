@@ -5,6 +5,9 @@ import { readFileSync } from 'node:fs';
 import { helpText, parseArgs, UsageError, type CommandSpec, type Parsed } from './cli/args.js';
 import { DEFAULT_HTTP_PORT, startDaemon, type DeviceSource } from './daemon.js';
 import { listPorts } from './link/ports.js';
+import { parseRig } from './model/rig.js';
+import { DEFAULT_DATA_DIR } from './store/store.js';
+import type { RigSpec } from './model/rig-types.js';
 
 const VERSION = (JSON.parse(readFileSync(new URL('../../package.json', import.meta.url), 'utf8')) as { version: string }).version;
 
@@ -25,6 +28,7 @@ const SERVE: CommandSpec = {
     'http-port': { kind: 'int', value: 'N', help: `HTTP port of the dashboard (default ${DEFAULT_HTTP_PORT}; 0 picks a free one)`, min: 0, max: 65535 },
     token: { kind: 'string', value: 'T', help: 'access token (default: $DUCTBENCH_TOKEN, else a new random one each launch)' },
     'data-dir': { kind: 'string', value: 'DIR', help: 'folder for recorded sessions (default ./ductbench-data)' },
+    rig: { kind: 'string', value: 'FILE', help: 'rig file of the mounted set-up, for the prediction and the limits (default: the virtual bench rig)' },
   },
   notes: ['The dashboard URL, with its token, is printed on start. Ctrl-C or SIGTERM cuts the throttle before exiting.'],
 };
@@ -48,10 +52,49 @@ const SIM: CommandSpec = {
   notes: ['Needs socat. Prints the device path; then run: ductbench serve --port <that path>'],
 };
 
+const stdio = { stdout: (s: string) => void process.stdout.write(s), stderr: (s: string) => void process.stderr.write(s) };
+
 const COMMANDS: Record<string, { spec?: CommandSpec; summary: string; run: (argv: string[]) => Promise<number> }> = {
   serve: { spec: SERVE, summary: SERVE.summary, run: (a) => withSpec(SERVE, a, serve) },
   ports: { spec: PORTS, summary: PORTS.summary, run: (a) => withSpec(PORTS, a, ports) },
   sim: { spec: SIM, summary: SIM.summary, run: (a) => withSpec(SIM, a, sim) },
+  run: {
+    summary: 'run a throttle-step sequence headless (virtual bench or hardware) and report the operating points',
+    run: async (a) => {
+      const { runMain } = await import('./cli/run.js');
+      const { buildRigModel, predictAtThrottle } = await import('./model/index.js');
+      return runMain(a, stdio, {
+        defaultDataDir: DEFAULT_DATA_DIR,
+        // The model's prediction at each step, for the deviation column of the operating points.
+        predictorFor: (rig) => {
+          const { sim: _truth, ...described } = rig;
+          const model = buildRigModel(described);
+          return (throttle, voltage) => {
+            const p = predictAtThrottle(model, throttle, voltage);
+            return { thrust_N: p.thrust_N, power_W: p.powerElectrical_W, grams_per_watt: p.gramsPerWatt };
+          };
+        },
+        // The run is one session in the store: its context, its points, and its outcome as the runner saw it.
+        record: ({ tags, plan, daemon }) => {
+          const keeper = daemon.sessions;
+          if (!keeper) return null;
+          keeper.prepare({ title: plan.name, tags, sequence: plan, managed: true });
+          return {
+            onPoint: (p) => keeper.addPoint(p),
+            finish: (r) => keeper.finish(r.outcome),
+          };
+        },
+      });
+    },
+  },
+  sessions: {
+    summary: 'list, show, export, import, tag, report and delete recorded sessions',
+    run: async (a) => (await import('./cli/sessions.js')).sessionsMain(a, stdio),
+  },
+  compare: {
+    summary: 'compare sessions against a baseline: power saving, thrust gain, net of duct mass, vehicle verdict',
+    run: async (a) => (await import('./cli/compare.js')).compareMain(a, stdio),
+  },
   predict: {
     summary: 'predict thrust and power for a rig or a what-if propeller and duct',
     run: async (a) => {
@@ -106,13 +149,22 @@ async function serve(p: Parsed): Promise<number> {
   // Until the device answers, keep the daemon's log to ourselves: a failed start is reported as one line.
   let early: string[] | null = [];
   const log = (line: string) => (early ? early.push(line) : process.stderr.write(line + '\n'));
+  let rig: RigSpec | undefined;
+  if (o.rig !== undefined) {
+    try {
+      rig = parseRig(JSON.parse(readFileSync(String(o.rig), 'utf8')));
+    } catch (err) {
+      throw new UsageError(`--rig ${String(o.rig)}: ${(err as Error).message}`);
+    }
+  }
   const daemon = await startDaemon({
     log,
     source,
+    ...(rig ? { rig } : {}),
     host,
     httpPort: (o['http-port'] as number | undefined) ?? DEFAULT_HTTP_PORT,
     ...(token ? { token } : {}),
-    ...(o['data-dir'] !== undefined ? { dataDir: String(o['data-dir']) } : {}),
+    dataDir: o['data-dir'] !== undefined ? String(o['data-dir']) : DEFAULT_DATA_DIR,
     // A board that resets when its port opens needs a couple of seconds before it can answer.
     link: { handshakeTimeoutMs: source.kind === 'serial' ? 4000 : 2000 },
   });

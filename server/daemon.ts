@@ -17,6 +17,8 @@ import { SerialTransport } from './link/serial-transport.js';
 import type { Transport } from './link/transport.js';
 import type { VirtualBench } from './sim/index.js';
 import { Interlocks } from './interlocks/engine.js';
+import { SessionKeeper } from './bench/recording.js';
+import { SessionStore } from './store/store.js';
 import { parseLimits, type Limits } from './interlocks/limits.js';
 import type { RigSpec } from './model/rig-types.js';
 import { buildRigModel, predictAtThrottle, predictCurve, rigGeometry, type RigModel } from './model/index.js';
@@ -90,6 +92,8 @@ export interface RunningDaemon {
   controller: BenchController;
   interlocks: Interlocks;
   hub: Hub;
+  /** Session recording, when a data folder was given. */
+  sessions: SessionKeeper | null;
   /** The in-process virtual bench, when that is the device (tests and fault injection reach it here). */
   sim: VirtualBench | null;
   /** Resolves once the first connection attempt has finished (ready or failed). */
@@ -149,10 +153,33 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     limits,
     diameterM: rig?.propeller.diameter_m ?? null,
     cells: rig?.supply.cells ?? null,
-    predictor: model ? (throttle, voltage) => predictAtThrottle(model!, throttle, voltage).gramsPerWatt : null,
+    predictor: model
+      ? (throttle, voltage) => {
+          const p = predictAtThrottle(model!, throttle, voltage);
+          return { gramsPerWatt: p.gramsPerWatt, thrust_N: p.thrust_N };
+        }
+      : null,
+    // a fifth of the thrust the rig is predicted to make at full throttle
+    deviationMinThrustN: model ? 0.2 * predictAtThrottle(model, 1).thrust_N : 0,
     badLineCount: () => Object.values(link.view().linesBad).reduce((a, b) => a + b, 0),
   });
   let prediction: LivePrediction | null = null;
+  // Sessions are recorded when a data folder is given (the CLI always gives one; tests mostly do not).
+  const store = opts.dataDir ? SessionStore.open(opts.dataDir, { busyTimeoutMs: 20 }) : null;
+  const tell = (event: BenchEvent) => {
+    events.push(event);
+    hub.broadcast({ type: 'event', event });
+    log(`[${event.level}] ${event.text}`);
+  };
+  const sessions = store
+    ? new SessionKeeper(store, controller, () => ({
+        rig,
+        calibration: pipeline.calibration,
+        atmosphere: prediction ? { density_kg_m3: prediction.density_kg_m3, source: 'ISA sea level (model default)' } : null,
+        firmware: link.identity,
+      }), (e) => tell(e))
+    : null;
+  interlocks.on('trip', ({ rule, finding, sample }) => sessions?.addTrip(rule, finding.value, finding.limit, finding.detail, sample));
   const extras = (): Record<string, unknown> => ({ prediction, limits, rig: rig ? { name: rig.name, ducted: rig.duct !== null } : null });
   const pipeline = new TelemetryPipeline();
   const history = new SampleRing(HISTORY_CAPACITY);
@@ -217,6 +244,7 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     const s = pipeline.toSample(f, Date.now());
     // Interlocks first: a trip writes the cut before the sample is stored or shown.
     interlocks.onSample(s, arrivedAt);
+    sessions?.addSample(s);
     for (const fn of sampleListeners) fn(s, arrivedAt);
     history.push(s);
     appendToBatch(pending, s);
@@ -245,7 +273,8 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     events.push(event);
     if (events.length > EVENT_LOG_CAP) events.splice(0, events.length - EVENT_LOG_CAP);
     hub.broadcast({ type: 'event', event });
-    if (event.level !== 'info' || event.kind === 'state') log(`[${event.level}] ${event.text}`);
+    // Once closing, the STOP we send on the way out latches the device; that is not news for the operator.
+    if (!closed && (event.level !== 'info' || event.kind === 'state')) log(`[${event.level}] ${event.text}`);
   });
 
   const flush = setInterval(() => {
@@ -257,6 +286,7 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
   // Counters move all the time; send them once a second rather than on every line.
   const linkTick = setInterval(() => hub.broadcast({ type: 'link', link: link.view() }), 1000);
 
+  let closed = false;
   let http: HttpSurface;
   try {
     http = await startHttp({
@@ -283,7 +313,6 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
   );
 
   const urlHost = host === '0.0.0.0' || host === '::' ? '127.0.0.1' : host.includes(':') ? `[${host}]` : host;
-  let closed = false;
   return {
     url: `http://${urlHost}:${http.port}/?token=${encodeURIComponent(token)}`,
     port: http.port,
@@ -293,6 +322,7 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     interlocks,
     hub,
     sim,
+    sessions,
     firstConnect,
     onSample(fn) {
       sampleListeners.add(fn);
@@ -307,6 +337,9 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
       clearInterval(flush);
       clearInterval(linkTick);
       interlocks.close();
+      // A session still open when the daemon is stopped was ended by the operator.
+      sessions?.finish('aborted');
+      store?.close();
       hub.closeAll();
       await link.close();
       await http.close();

@@ -149,22 +149,29 @@ describe('sample rules', () => {
 
   it('prediction deviation: warns past the warning level and trips past the trip level once steady', () => {
     // predicted 10 g/W; measured 5 N / (9.80665e-3 N/gf) / 155 W = 3.29 g/W: 67 % low
-    const h = harness({ deviation_warn_pct: 15, deviation_trip_pct: 40 }, { predictor: () => 10 });
+    const h = harness({ deviation_warn_pct: 15, deviation_trip_pct: 40 }, { predictor: () => ({ gramsPerWatt: 10, thrust_N: 5 }) });
     h.feed({}, 1000); // not yet steady: no verdict
     expect(h.bench.trips).toEqual([]);
     h.feed({}, 1500);
     expect(h.bench.trips[0]?.rule).toBe('prediction_deviation');
     expect(h.bench.trips[0].value).toBeCloseTo(-67.1, 0);
-    const w = harness({ deviation_warn_pct: 15, deviation_trip_pct: 80 }, { predictor: () => 4 });
+    const w = harness({ deviation_warn_pct: 15, deviation_trip_pct: 80 }, { predictor: () => ({ gramsPerWatt: 4, thrust_N: 5 }) });
     w.feed({}, 3000); // 3.29 vs 4: -18 %
     expect(w.bench.trips).toEqual([]);
     expect(w.warnings).toContain('prediction_deviation');
   });
 
+  it('prediction deviation: no verdict where the predicted thrust is below the judging floor (near idle)', () => {
+    const h = harness({ deviation_warn_pct: 15, deviation_trip_pct: 40 }, { predictor: () => ({ gramsPerWatt: 10, thrust_N: 0.8 }), deviationMinThrustN: 2 });
+    h.feed({}, 3000);
+    expect(h.bench.trips).toEqual([]);
+    expect(h.warnings).not.toContain('prediction_deviation');
+  });
+
   it('prediction deviation: a slow thrust channel between fast electrical frames is weighted by its own clock', () => {
     // thrust at 80 Hz, power at 500 Hz (as the bridge ADC and the electrical channels of a real bench)
     const gpw = 5 / 9.80665e-3 / 155; // 3.29 g/W measured
-    const h = harness({ deviation_warn_pct: 5, deviation_trip_pct: 10 }, { predictor: () => gpw });
+    const h = harness({ deviation_warn_pct: 5, deviation_trip_pct: 10 }, { predictor: () => ({ gramsPerWatt: gpw, thrust_N: 5 }) });
     for (let i = 0; i < 1500; i++) h.feed({ thrust: i % 6 === 0 ? 5 : null }, 2, 2);
     expect(h.bench.trips).toEqual([]);
     expect(h.warnings).not.toContain('prediction_deviation');

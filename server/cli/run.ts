@@ -50,6 +50,8 @@ export interface RunHooks {
   predictorFor?: (rig: RigSpec) => PredictFn | null;
   /** Opens a session record (the store) for this run. */
   record?: (ctx: RunRecordContext) => RunRecordHook | null | Promise<RunRecordHook | null>;
+  /** Data folder when --data-dir is not given (the CLI passes the documented default; tests leave it out). */
+  defaultDataDir?: string;
   /** Extra daemon options (tests: a noise seed, limit overrides). */
   daemon?: Partial<DaemonOptions>;
   /** Told when the runner exists, before its checks (tests drive faults and signals from here). */
@@ -268,7 +270,7 @@ async function runInner(argv: string[], io: RunIo, hooks: RunHooks, say: (s: str
     httpPort: 0,
     host: '127.0.0.1',
     ...(rig ? { rig } : {}),
-    ...(has('data-dir') ? { dataDir: String(o['data-dir']) } : {}),
+    ...(has('data-dir') ? { dataDir: String(o['data-dir']) } : hooks.defaultDataDir ? { dataDir: hooks.defaultDataDir } : {}),
     link: { handshakeTimeoutMs: real ? 4000 : 2000, ...(hooks.daemon?.link ?? {}) },
   });
   let offSignals: () => void = () => {};

@@ -22,8 +22,13 @@ export interface InterlockOptions {
   cells: number | null;
   /** Air temperature (K) for the speed of sound; 288.15 K (standard sea level) by default. */
   airTemperatureK?: number;
-  /** Predicted grams per watt at a throttle and bus voltage, or null. */
-  predictor?: ((throttle: number, voltage: number) => number | null) | null;
+  /** Predicted grams per watt and thrust at a throttle and bus voltage, or null. */
+  predictor?: ((throttle: number, voltage: number) => { gramsPerWatt: number; thrust_N: number } | null) | null;
+  /**
+   * The deviation rule judges only where the predicted thrust is at least this (N): near idle, grams per
+   * watt is a ratio of two small, offset-prone numbers and an ESC's start dead-band makes it meaningless.
+   */
+  deviationMinThrustN?: number;
   /** Total bad lines counted by the link so far. */
   badLineCount: () => number;
   /** Time source, ms (performance.now by default; tests pass their own). */
@@ -291,7 +296,8 @@ export class Interlocks extends TypedEmitter<InterlockEvents> {
     const p = this.opts.predictor;
     if (p && s.voltage !== null && now - this.lastPredictionAt > 100) {
       this.lastPredictionAt = now;
-      this.predicted = this.output > 0 ? p(this.output, s.voltage) : null;
+      const pred = this.output > 0 ? p(this.output, s.voltage) : null;
+      this.predicted = pred && pred.thrust_N >= (this.opts.deviationMinThrustN ?? 0) ? pred.gramsPerWatt : null;
     }
   }
 

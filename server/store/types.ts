@@ -10,7 +10,8 @@ import type { RigSpec } from '../model/rig-types.js';
 export type SessionOutcome = 'running' | 'completed' | 'tripped' | 'aborted' | 'interrupted';
 export const SESSION_OUTCOMES: readonly SessionOutcome[] = ['running', 'completed', 'tripped', 'aborted', 'interrupted'];
 /** Outcomes a recorder may finish with ('running' is the live state, 'interrupted' is set by recovery). */
-export type FinalOutcome = Exclude<SessionOutcome, 'running' | 'interrupted'>;
+// 'interrupted' is also set by recovery on open, for a session whose recorder died without a word.
+export type FinalOutcome = Exclude<SessionOutcome, 'running'>;
 
 /**
  * The air during a session, as measured or assumed. Free-form beyond density so that a later sensor (humidity,

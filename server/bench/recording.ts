@@ -1,0 +1,121 @@
+// Which data becomes which session. A session starts when the bench is armed and ends when it goes back to
+// safe (completed), trips (tripped) or loses the device (interrupted). A sequence run manages its own
+// session instead: it prepares the context (title, tags, the sequence), and sets the outcome itself, so an
+// aborted sweep is not recorded as completed because it ended disarmed.
+//
+// Recording never stands in the way of control: the recorder buffers and retries on its own, and its errors
+// become events for the operator.
+
+import type { BenchEvent, DeviceIdentity } from '../api/messages.js';
+import type { RigSpec } from '../model/rig-types.js';
+import type { SessionRecorder } from '../store/recorder.js';
+import type { FinalOutcome } from '../store/types.js';
+import type { SessionStore } from '../store/store.js';
+import type { AtmosphereRecord } from '../store/types.js';
+import type { Calibration } from './calibration.js';
+import type { BenchController } from './controller.js';
+import type { OperatingPoint } from './operating-point.js';
+import type { Sample } from './telemetry.js';
+
+export interface SessionIntent {
+  title?: string;
+  tags?: string[];
+  notes?: string;
+  sequence?: unknown;
+  /** The caller sets the outcome with finish(); the keeper does not end the session on disarm. */
+  managed?: boolean;
+}
+
+export interface RecordingContext {
+  rig: RigSpec | null;
+  calibration: Calibration;
+  atmosphere: AtmosphereRecord | null;
+  firmware: DeviceIdentity | null;
+}
+
+export class SessionKeeper {
+  private rec: SessionRecorder | null = null;
+  private intent: SessionIntent | null = null;
+  private managed = false;
+
+  constructor(
+    private readonly store: SessionStore,
+    controller: BenchController,
+    private readonly context: () => RecordingContext,
+    private readonly tell: (event: BenchEvent) => void,
+  ) {
+    controller.on('transition', (tr) => {
+      if (tr.to === 'armed' && tr.from === 'safe' && !this.rec) this.begin();
+      else if (this.rec && !this.managed) {
+        if (tr.to === 'safe') this.finish('completed');
+        else if (tr.to === 'tripped') this.finish('tripped');
+        else if (tr.to === 'disconnected') this.finish('interrupted');
+      }
+    });
+    controller.on('event', (e) => this.rec?.addEvent(e));
+  }
+
+  get sessionId(): number | null {
+    return this.rec?.id ?? null;
+  }
+
+  /** Context for the next session, or, when one is already open, starts a fresh one with it now. */
+  prepare(intent: SessionIntent): number | null {
+    this.intent = intent;
+    if (intent.managed) return this.begin();
+    return null;
+  }
+
+  addSample(s: Sample): void {
+    this.rec?.addSample(s);
+  }
+
+  addPoint(p: OperatingPoint): void {
+    this.rec?.addPoint(p);
+  }
+
+  /** A trip with its rule, value, limit and the offending sample, as structured data. */
+  addTrip(rule: string, value: number, limit: number, detail: string, sample: Sample | null): void {
+    this.rec?.addEvent({ t: Date.now(), level: 'error', kind: 'trip', text: `${rule}: ${detail}`, data: { rule, value, limit, sample } });
+  }
+
+  finish(outcome: FinalOutcome): void {
+    const rec = this.rec;
+    this.rec = null;
+    this.managed = false;
+    if (rec) rec.finish(outcome);
+  }
+
+  private begin(): number {
+    if (this.rec) this.finish(this.managed ? 'interrupted' : 'completed');
+    const intent = this.intent ?? {};
+    this.intent = null;
+    this.managed = intent.managed ?? false;
+    const ctx = this.context();
+    const when = new Date();
+    this.rec = this.store.record(
+      {
+        title: intent.title ?? `${ctx.rig?.name ?? 'bench'} ${when.toISOString().slice(0, 16).replace('T', ' ')}`,
+        tags: intent.tags ?? [],
+        ...(intent.notes !== undefined ? { notes: intent.notes } : {}),
+        rig: ctx.rig,
+        calibration: ctx.calibration,
+        atmosphere: ctx.atmosphere,
+        firmware: ctx.firmware,
+        ...(intent.sequence !== undefined ? { sequence: intent.sequence } : {}),
+      },
+      {
+        onError: (e) =>
+          this.tell({
+            t: Date.now(),
+            level: 'error',
+            kind: 'recording',
+            text: `recording session ${e.sessionId} failed (${e.code ?? 'error'}: ${e.message}); ${e.pendingSamples} samples held in memory; bench control is unaffected`,
+          }),
+        onRecovered: ({ dropped }) =>
+          this.tell({ t: Date.now(), level: 'warn', kind: 'recording', text: `recording works again${dropped ? `; ${dropped} samples were lost` : ''}` }),
+      },
+    );
+    return this.rec.id;
+  }
+}
