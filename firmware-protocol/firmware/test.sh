@@ -2,7 +2,9 @@
 # Builds the reference firmware's portable core with the host's g++ and runs its tests against the shared
 # conformance vectors, plain and under AddressSanitizer/UndefinedBehaviorSanitizer; also builds the host
 # binary (build/ductbench-fw-host) that test/firmware.test.ts runs behind a pseudo-terminal, and checks
-# that the core still compiles as C++11 (the Arduino AVR core's default dialect). Exits non-zero on any
+# that the core still compiles as C++11 (the Arduino AVR core's default dialect); where avr-gcc and the
+# Arduino AVR core are installed, also compiles and links the sketch for an Uno (arduino/avr-check.sh).
+# Exits non-zero on any
 # failure; a missing compiler is a failure, never a skip.
 #
 #   bash firmware-protocol/firmware/test.sh        (build output in firmware-protocol/firmware/build/)
@@ -78,6 +80,8 @@ if [ -n "$p_san" ]; then
   }
   tail -n 1 "$out/san.log"
 fi
+# The sketch for an Uno-class board, when the distribution's AVR toolchain is installed (optional here).
+bash "$here/arduino/avr-check.sh" "$out/avr" || fail=1
 if [ $fail != 0 ]; then
   echo "firmware test: FAILED" >&2
   exit 1

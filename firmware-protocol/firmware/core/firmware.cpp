@@ -490,10 +490,9 @@ void Firmware::watchdogs() {
 
 // ------------------------------------------------------------------ transmit path
 
-void Firmware::send(const Frame& f, bool isTelemetry) {
-  Frame g = f;
-  g.seq = txSeq_;
-  size_t n = encodeFrame(g, tx_, sizeof tx_);
+void Firmware::send(Frame& f, bool isTelemetry) {
+  f.seq = txSeq_;
+  size_t n = encodeFrame(f, tx_, sizeof tx_);
   if (n == 0) {
     debug(FW_STR("encode failed for message id:"), f.msg);
     return;

@@ -71,6 +71,8 @@ class Firmware {
   const FirmwareStats& stats() const { return stats_; }
   /** The IDENT caps list, e.g. "thrust@80,voltage@100,current@100". */
   const char* caps() const { return caps_; }
+  /** The configuration in force (CALSET changes its calibrations). */
+  const Config& config() const { return cfg_; }
 
  private:
   void apply(const Input& in);
@@ -90,7 +92,7 @@ class Firmware {
   void onThrustCounts(int32_t counts);
   void watchdogs();
 
-  void send(const Frame& f, bool isTelemetry = false);
+  void send(Frame& f, bool isTelemetry = false);
   void ack(const Frame& cmd);
   void nak(const Frame& cmd, uint8_t why);
   void log(uint8_t level, const char* flashText);
@@ -127,8 +129,8 @@ class Firmware {
   uint8_t qHead_ = 0;
   uint8_t qLen_ = 0;
   char tx_[MAX_LINE_BYTES + 2];
-  char text_[MAX_LINE_BYTES - 40];
-  char caps_[72];
+  char text_[96];  // LOG texts are short; this is RAM on a 2 KiB board
+  char caps_[56];  // longest possible: thrust@80,voltage@1000,current@1000,rpm@200,temp@50
   Frame out_;
 
   uint16_t lastStatSig_ = 0xFFFF;
