@@ -7,6 +7,7 @@ import { DEFAULT_HTTP_PORT, startDaemon, type DeviceSource } from './daemon.js';
 import { listPorts } from './link/ports.js';
 import { parseRig } from './model/rig.js';
 import { DEFAULT_DATA_DIR } from './store/store.js';
+import { resolveAtmosphere, type AtmosphereInput } from './bench/atmosphere.js';
 import type { RigSpec } from './model/rig-types.js';
 
 const VERSION = (JSON.parse(readFileSync(new URL('../../package.json', import.meta.url), 'utf8')) as { version: string }).version;
@@ -29,6 +30,11 @@ const SERVE: CommandSpec = {
     token: { kind: 'string', value: 'T', help: 'access token (default: $DUCTBENCH_TOKEN, else a new random one each launch)' },
     'data-dir': { kind: 'string', value: 'DIR', help: 'folder for recorded sessions (default ./ductbench-data)' },
     rig: { kind: 'string', value: 'FILE', help: 'rig file of the mounted set-up, for the prediction and the limits (default: the virtual bench rig)' },
+    altitude: { kind: 'number', value: 'METRES', help: 'air from the standard atmosphere at this altitude (default 0)', min: -500, max: 6000 },
+    'air-temp': { kind: 'number', value: 'DEGC', help: 'measured air temperature (with --air-pressure)' },
+    'air-pressure': { kind: 'number', value: 'PA', help: 'measured air pressure in pascals (with --air-temp)' },
+    humidity: { kind: 'number', value: 'PERCENT', help: 'measured relative humidity (with --air-temp and --air-pressure)', min: 0, max: 100 },
+    density: { kind: 'number', value: 'KG_PER_M3', help: 'air density, when known directly' },
   },
   notes: ['The dashboard URL, with its token, is printed on start. Ctrl-C or SIGTERM cuts the throttle before exiting.'],
 };
@@ -157,9 +163,23 @@ async function serve(p: Parsed): Promise<number> {
       throw new UsageError(`--rig ${String(o.rig)}: ${(err as Error).message}`);
     }
   }
+  const num = (k: string) => (o[k] !== undefined ? Number(o[k]) : undefined);
+  const atmosphere: AtmosphereInput = {
+    ...(num('altitude') !== undefined ? { altitude_m: num('altitude') } : {}),
+    ...(num('air-temp') !== undefined ? { temperature_C: num('air-temp') } : {}),
+    ...(num('air-pressure') !== undefined ? { pressure_Pa: num('air-pressure') } : {}),
+    ...(num('humidity') !== undefined ? { humidity_pct: num('humidity') } : {}),
+    ...(num('density') !== undefined ? { density_kg_m3: num('density') } : {}),
+  };
+  try {
+    resolveAtmosphere(atmosphere);
+  } catch (err) {
+    throw new UsageError((err as Error).message);
+  }
   const daemon = await startDaemon({
     log,
     source,
+    atmosphere,
     ...(rig ? { rig } : {}),
     host,
     httpPort: (o['http-port'] as number | undefined) ?? DEFAULT_HTTP_PORT,

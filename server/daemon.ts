@@ -19,6 +19,7 @@ import type { VirtualBench } from './sim/index.js';
 import { Interlocks } from './interlocks/engine.js';
 import { SessionKeeper } from './bench/recording.js';
 import { SessionStore } from './store/store.js';
+import { resolveAtmosphere, type Atmosphere, type AtmosphereInput } from './bench/atmosphere.js';
 import { parseLimits, type Limits } from './interlocks/limits.js';
 import type { RigSpec } from './model/rig-types.js';
 import { buildRigModel, predictAtThrottle, predictCurve, rigGeometry, type RigModel } from './model/index.js';
@@ -49,6 +50,8 @@ export interface DaemonOptions {
   link?: Partial<Omit<LinkOptions, 'transport'>>;
   /** The mounted rig (validated), for the prediction and the limits. Defaults to the virtual bench's rig. */
   rig?: RigSpec | null;
+  /** The air the bench runs in (standard sea level by default). */
+  atmosphere?: AtmosphereInput;
   /** Limit overrides on top of the rig's `limits` section (validated the same way). */
   limits?: Record<string, number>;
   log?: (line: string) => void;
@@ -58,6 +61,8 @@ export interface DaemonOptions {
 export interface LivePrediction {
   rig: string;
   density_kg_m3: number;
+  /** Where the density came from (standard atmosphere at an altitude, measured air, given). */
+  atmosphere: string;
   sigma: number | null;
   tip_clearance_mm: number | null;
   throttle: number[];
@@ -67,13 +72,14 @@ export interface LivePrediction {
   ideal_ducted_gpw: (number | null)[];
 }
 
-function livePrediction(model: RigModel, ceiling: number): LivePrediction {
+function livePrediction(model: RigModel, ceiling: number, atmosphere: Atmosphere): LivePrediction {
   const throttles = Array.from({ length: 30 }, (_, i) => Math.round(((i + 1) / 30) * ceiling * 1000) / 1000);
   const curve = predictCurve(model, { throttles });
   const geo = rigGeometry(model.rig);
   return {
     rig: model.rig.name,
     density_kg_m3: curve.density_kg_m3,
+    atmosphere: atmosphere.source,
     sigma: geo.sigma,
     tip_clearance_mm: geo.tipClearance_mm,
     throttle: throttles,
@@ -143,9 +149,10 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
   }
   const limits: Limits = parseLimits({ ...(rig?.limits ?? {}), ...(opts.limits ?? {}) }, rig?.limits ? 'rig limits' : 'limits');
   controller.maxSlewPerS = limits.max_slew_per_s;
+  const atmosphere = resolveAtmosphere(opts.atmosphere);
   let model: RigModel | null = null;
   try {
-    model = rig ? buildRigModel(rig) : null;
+    model = rig ? buildRigModel(rig, { air: atmosphere.air }) : null;
   } catch (err) {
     log(`ductbench: no prediction for rig ${rig?.name}: ${(err as Error).message}`);
   }
@@ -153,6 +160,7 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     limits,
     diameterM: rig?.propeller.diameter_m ?? null,
     cells: rig?.supply.cells ?? null,
+    airTemperatureK: atmosphere.temperature_K,
     predictor: model
       ? (throttle, voltage) => {
           const p = predictAtThrottle(model!, throttle, voltage);
@@ -175,12 +183,23 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     ? new SessionKeeper(store, controller, () => ({
         rig,
         calibration: pipeline.calibration,
-        atmosphere: prediction ? { density_kg_m3: prediction.density_kg_m3, source: 'ISA sea level (model default)' } : null,
+        atmosphere: {
+          density_kg_m3: atmosphere.density_kg_m3,
+          temperature_C: atmosphere.temperature_K - 273.15,
+          ...(atmosphere.pressure_Pa !== null ? { pressure_Pa: atmosphere.pressure_Pa } : {}),
+          ...(atmosphere.relative_humidity !== null ? { relative_humidity: atmosphere.relative_humidity } : {}),
+          source: atmosphere.source,
+        },
         firmware: link.identity,
       }), (e) => tell(e))
     : null;
   interlocks.on('trip', ({ rule, finding, sample }) => sessions?.addTrip(rule, finding.value, finding.limit, finding.detail, sample));
-  const extras = (): Record<string, unknown> => ({ prediction, limits, rig: rig ? { name: rig.name, ducted: rig.duct !== null } : null });
+  const extras = (): Record<string, unknown> => ({
+    prediction,
+    limits,
+    rig: rig ? { name: rig.name, ducted: rig.duct !== null } : null,
+    atmosphere: { density_kg_m3: atmosphere.density_kg_m3, temperature_K: atmosphere.temperature_K, source: atmosphere.source },
+  });
   const pipeline = new TelemetryPipeline();
   const history = new SampleRing(HISTORY_CAPACITY);
   const events: BenchEvent[] = [];
@@ -254,7 +273,7 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     interlocks.reset();
     if (model) {
       try {
-        prediction = livePrediction(model, id.throttleCeiling);
+        prediction = livePrediction(model, id.throttleCeiling, atmosphere);
         hub.broadcast({ type: 'extras', extras: extras() });
       } catch (err) {
         log(`ductbench: prediction failed: ${(err as Error).message}`);
