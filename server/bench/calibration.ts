@@ -12,11 +12,16 @@ export interface Calibration {
   voltage: ChannelCal;
   current: ChannelCal;
   torque: ChannelCal;
+  /** Pulses-per-revolution correction of the rpm channel (offset unused). */
+  rpm: ChannelCal;
 }
+
+export const CALIBRATED_CHANNELS = ['thrust', 'voltage', 'current', 'torque', 'rpm'] as const;
+export type CalibratedChannel = (typeof CALIBRATED_CHANNELS)[number];
 
 export function identityCalibration(): Calibration {
   const id = (): ChannelCal => ({ scale: 1, offset: 0 });
-  return { thrust: id(), voltage: id(), current: id(), torque: id() };
+  return { thrust: id(), voltage: id(), current: id(), torque: id(), rpm: id() };
 }
 
 export function applyCalibration(c: ChannelCal, raw: number): number {

@@ -67,7 +67,7 @@ export class TelemetryPipeline {
       voltage,
       current,
       power,
-      rpm: x.rpm === undefined ? null : x.rpm,
+      rpm: x.rpm === undefined ? null : applyCalibration(c.rpm, x.rpm),
       temp: x.temp === undefined ? null : x.temp,
       torque: x.torque === undefined ? null : applyCalibration(c.torque, x.torque),
       out: x.out === undefined ? null : x.out,

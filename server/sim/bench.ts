@@ -286,6 +286,15 @@ export class VirtualBench {
   // ------------------------------------------------------------------ fault injection
 
   /** Injects a fault (see faults.ts for what each kind does and its options). */
+  /**
+   * Hangs a calibration mass (kg) on the load cell, or removes it (0): the operator's part of a span
+   * calibration. Standard gravity, 9.80665 m/s^2 (CGPM 1901).
+   */
+  hangMass(kg: number): void {
+    if (!Number.isFinite(kg) || kg < 0 || kg > 100) throw new RangeError(`calibration mass ${kg} kg outside 0..100`);
+    this.sensors.externalLoadN = kg * 9.80665;
+  }
+
   injectFault<K extends InjectedFaultKind>(kind: K, options: FaultOptions[K] = {} as FaultOptions[K]): InjectedFault {
     const o = options as FaultOptions[InjectedFaultKind] & { duration_ms?: number; after_ms?: number };
     const startUs = this.simUs + Math.max(0, o.after_ms ?? 0) * 1000;

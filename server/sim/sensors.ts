@@ -40,6 +40,11 @@ export class SensorBank {
   /** Thermistor on the motor case: follows the case temperature a little late. */
   private thermistorC: number | null = null;
   dropout: DropoutMode | null = null;
+  /**
+   * Force of a calibration mass hung on the load cell (N, acting along the thrust axis through a pulley or
+   * with the stand turned upright), as an operator does to span the cell. The cell cannot tell it from thrust.
+   */
+  externalLoadN = 0;
 
   constructor(
     private readonly k: SimConstants,
@@ -70,7 +75,8 @@ export class SensorBank {
   tick(nowUs: number, dt: number, truth: Readonly<TruthState>): SensorSample[] {
     const k = this.k;
     const lagS = k.thrust_lag_ms / 1000;
-    this.lagged += (truth.thrustN - this.lagged) * (lagS > 0 ? Math.min(1, dt / lagS) : 1);
+    const force = truth.thrustN + this.externalLoadN;
+    this.lagged += (force - this.lagged) * (lagS > 0 ? Math.min(1, dt / lagS) : 1);
     this.integral += this.lagged * dt;
     this.integralTime += dt;
     this.driftN += (k.thrust_drift_n_per_min / 60) * dt;
