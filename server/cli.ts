@@ -93,6 +93,10 @@ const COMMANDS: Record<string, { spec?: CommandSpec; summary: string; run: (argv
       });
     },
   },
+  calibrate: {
+    summary: 'calibrate the load cell, current, voltage and rpm channels, with a dated history',
+    run: async (a) => (await import('./cli/calibrate.js')).calibrateMain(a, stdio),
+  },
   sessions: {
     summary: 'list, show, export, import, tag, report and delete recorded sessions',
     run: async (a) => (await import('./cli/sessions.js')).sessionsMain(a, stdio),

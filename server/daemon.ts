@@ -5,7 +5,16 @@
 import { fileURLToPath } from 'node:url';
 import type { IncomingMessage } from 'node:http';
 import type { WebSocket } from 'ws';
-import { API_VERSION, emptyBatch, type BenchEvent, type ClientMessage, type SampleBatch, type Snapshot } from './api/messages.js';
+import {
+  API_VERSION,
+  CHECKLIST_IDS,
+  emptyBatch,
+  type BenchEvent,
+  type ChecklistView,
+  type ClientMessage,
+  type SampleBatch,
+  type Snapshot,
+} from './api/messages.js';
 import { BenchController, ControlError } from './bench/controller.js';
 import { SampleRing, appendToBatch, thinBatch } from './bench/history.js';
 import { TelemetryPipeline, type Sample } from './bench/telemetry.js';
@@ -19,10 +28,14 @@ import type { VirtualBench } from './sim/index.js';
 import { Interlocks } from './interlocks/engine.js';
 import { SessionKeeper } from './bench/recording.js';
 import { SessionStore } from './store/store.js';
+import { CalibrationHistory, calibrationWarnings } from './calibration/history.js';
 import { resolveAtmosphere, type Atmosphere, type AtmosphereInput } from './bench/atmosphere.js';
 import { parseLimits, type Limits } from './interlocks/limits.js';
 import type { RigSpec } from './model/rig-types.js';
 import { buildRigModel, predictAtThrottle, predictCurve, rigGeometry, type RigModel } from './model/index.js';
+import { SequenceService, loadExamples } from './bench/sequence-service.js';
+import { sessionsApi } from './http/sessions-api.js';
+import type { PredictFn, RunnerOptions } from './sequence/index.js';
 
 export const DEFAULT_HTTP_PORT = 8470;
 /** How often sample batches go out to dashboards. */
@@ -54,6 +67,10 @@ export interface DaemonOptions {
   atmosphere?: AtmosphereInput;
   /** Limit overrides on top of the rig's `limits` section (validated the same way). */
   limits?: Record<string, number>;
+  /** Folder of the example sequences a dashboard may run by name; defaults to examples/sequences of the project. */
+  examplesDir?: string;
+  /** Runner overrides for sequences started from a dashboard (tests). */
+  sequenceRunner?: Partial<RunnerOptions>;
   log?: (line: string) => void;
 }
 
@@ -100,6 +117,8 @@ export interface RunningDaemon {
   hub: Hub;
   /** Session recording, when a data folder was given. */
   sessions: SessionKeeper | null;
+  /** Sequences started from a dashboard (one at a time). */
+  sequences: SequenceService;
   /** The in-process virtual bench, when that is the device (tests and fault injection reach it here). */
   sim: VirtualBench | null;
   /** Resolves once the first connection attempt has finished (ready or failed). */
@@ -114,6 +133,11 @@ function defaultWebRoot(): string {
   // dist/server/daemon.js -> dist/web ; server/daemon.ts (vitest) -> dist/web
   const here = fileURLToPath(new URL('.', import.meta.url));
   return here.includes(`${'/'}dist${'/'}`) ? fileURLToPath(new URL('../web/', import.meta.url)) : fileURLToPath(new URL('../dist/web/', import.meta.url));
+}
+
+function defaultExamplesDir(): string {
+  const here = fileURLToPath(new URL('.', import.meta.url));
+  return here.includes(`${'/'}dist${'/'}`) ? fileURLToPath(new URL('../../examples/sequences/', import.meta.url)) : fileURLToPath(new URL('../examples/sequences/', import.meta.url));
 }
 
 /** The device transport factory, and for the virtual bench the one bench that outlives reconnections. */
@@ -179,6 +203,18 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     hub.broadcast({ type: 'event', event });
     log(`[${event.level}] ${event.text}`);
   };
+  // The calibration in force: the latest of the data folder's history (made with `ductbench calibrate`).
+  let calibrationWarningsText: string[] = [];
+  if (opts.dataDir) {
+    try {
+      const history = new CalibrationHistory(opts.dataDir);
+      pipeline.calibration = history.current();
+      calibrationWarningsText = calibrationWarnings(history, new Date(), null);
+    } catch (err) {
+      // A broken history must not start the bench on a calibration nobody chose: say so, run uncalibrated.
+      calibrationWarningsText = [`calibration history unreadable, running uncalibrated: ${(err as Error).message}`];
+    }
+  }
   const sessions = store
     ? new SessionKeeper(store, controller, () => ({
         rig,
@@ -194,11 +230,45 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
       }), (e) => tell(e))
     : null;
   interlocks.on('trip', ({ rule, finding, sample }) => sessions?.addTrip(rule, finding.value, finding.limit, finding.detail, sample));
+  // The same prediction `ductbench run` gives its runner, at the bench's own air.
+  const predict: PredictFn | null = model
+    ? (throttle, voltage) => {
+        const p = predictAtThrottle(model!, throttle, voltage);
+        return { thrust_N: p.thrust_N, power_W: p.powerElectrical_W, grams_per_watt: p.gramsPerWatt };
+      }
+    : null;
+  const sequences = new SequenceService({
+    controller,
+    onSample: (fn) => {
+      sampleListeners.add(fn);
+      return () => sampleListeners.delete(fn);
+    },
+    identity: () => link.identity,
+    sessions,
+    rig,
+    limits,
+    predict,
+    airDensity_kg_m3: atmosphere.density_kg_m3,
+    examples: loadExamples(opts.examplesDir ?? defaultExamplesDir(), log),
+    tell: (e) => tell(e),
+    ...(opts.sequenceRunner ? { runner: opts.sequenceRunner } : {}),
+  });
+  sequences.on('run', (run) => hub.broadcast({ type: 'run', run }));
+  sequences.on('point', ({ run, point }) => hub.broadcast({ type: 'run_point', run, point }));
+  // The pre-arm checklist is confirmed once per daemon session, by a controlling dashboard. The CLI and
+  // in-process callers of controller.arm() are not dashboards and have their own acknowledgement.
+  let checklistAt: number | null = null;
+  const checklistView = (): ChecklistView => ({ confirmed: checklistAt !== null, at: checklistAt, items: CHECKLIST_IDS });
+  const requireChecklist = (what: string) => {
+    if (checklistAt === null) throw new ControlError(`${what} refused: complete the pre-arm checklist first (stand and propeller secured, rotor plane clear, eye protection, battery supervised, limits reviewed)`);
+  };
   const extras = (): Record<string, unknown> => ({
     prediction,
     limits,
     rig: rig ? { name: rig.name, ducted: rig.duct !== null } : null,
     atmosphere: { density_kg_m3: atmosphere.density_kg_m3, temperature_K: atmosphere.temperature_K, source: atmosphere.source },
+    checklist: checklistView(),
+    sequences: sequences.examples(),
   });
   const pipeline = new TelemetryPipeline();
   const history = new SampleRing(HISTORY_CAPACITY);
@@ -209,8 +279,12 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
   const hub = new Hub({
     onConnect: (client) => snapshot(client),
     onDisconnect: (client) => {
+      if (client.role !== 'controller') return;
+      // A paused run is disarmed already: end it quietly. Nobody is left to resume it.
+      if (sequences.live && sequences.view(false)?.state === 'paused') sequences.abortQuietly('controlling dashboard disconnected');
       // Losing the controlling dashboard while the motor may turn stops the motor: nobody is watching it.
-      if (client.role === 'controller' && (controller.state === 'armed' || controller.state === 'running')) {
+      if (sequences.cut('controlling dashboard disconnected')) return;
+      if (controller.state === 'armed' || controller.state === 'running') {
         controller.stop('controlling dashboard disconnected');
       }
     },
@@ -228,16 +302,39 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
       history: history.toBatch(Date.now() - SNAPSHOT_WINDOW_MS, SNAPSHOT_MAX_POINTS),
       events: events.slice(-50),
       extras: extras(),
+      run: sequences.view(true),
     };
   }
 
-  async function handleClient(_client: Client, msg: ClientMessage): Promise<void> {
+  async function handleClient(_client: Client, msg: ClientMessage): Promise<unknown> {
     switch (msg.type) {
       case 'stop':
-        controller.stop('dashboard');
+        // During a run the runner cuts (STOP first) so the run ends as aborted rather than as a mystery trip.
+        if (!sequences.cut('dashboard stop')) controller.stop('dashboard');
         return;
+      case 'checklist': {
+        const missing = CHECKLIST_IDS.filter((id) => !msg.items.includes(id));
+        if (missing.length) throw new ControlError(`checklist incomplete: not ticked: ${missing.join(', ')}`);
+        checklistAt = Date.now();
+        tell({ t: checklistAt, level: 'info', kind: 'checklist', text: 'pre-arm checklist confirmed by the controlling dashboard' });
+        hub.broadcast({ type: 'extras', extras: { checklist: checklistView() } });
+        return;
+      }
       case 'arm':
+        requireChecklist('arm');
+        if (sequences.live) throw new ControlError('a sequence is running: it arms and disarms the bench itself');
         return controller.arm();
+      case 'sequence_start': {
+        requireChecklist('sequence');
+        if (msg.check_only) return sequences.check(msg.source);
+        return sequences.start({ source: msg.source, ...(msg.title !== undefined ? { title: msg.title } : {}), ...(msg.tags !== undefined ? { tags: msg.tags } : {}) });
+      }
+      case 'sequence_pause':
+        return sequences.pause();
+      case 'sequence_resume':
+        return sequences.resume();
+      case 'sequence_abort':
+        return sequences.abort();
       case 'disarm':
         return controller.disarm();
       case 'throttle':
@@ -270,6 +367,11 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
   });
   link.on('ready', (id) => {
     pipeline.reset();
+    for (const text of calibrationWarningsText) {
+      const event: BenchEvent = { t: Date.now(), level: 'warn', kind: 'calibration', text };
+      events.push(event);
+      hub.broadcast({ type: 'event', event });
+    }
     interlocks.reset();
     if (model) {
       try {
@@ -316,6 +418,11 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
       onSocket: (ws: WebSocket, _req: IncomingMessage) => hub.add(ws),
       api: {
         'GET /api/status': async () => ({ status: 200, body: { bench: controller.view(), link: link.view(), identity: link.identity } }),
+        ...(store
+          ? sessionsApi({ store, recordingId: () => sessions?.sessionId ?? null })
+          : {
+              'GET /api/sessions': async () => ({ status: 503, body: { error: 'this daemon keeps no sessions (started without a data folder)' } }),
+            }),
       },
     });
   } catch (err) {
@@ -342,6 +449,7 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     hub,
     sim,
     sessions,
+    sequences,
     firstConnect,
     onSample(fn) {
       sampleListeners.add(fn);
@@ -350,6 +458,8 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     async close() {
       if (closed) return;
       closed = true;
+      // A run in progress is cut through its runner (STOP first) so it ends as aborted.
+      sequences.cut('daemon stopping');
       // Cut first. Wait briefly for the device's ACK so the STOP is on the wire before the port closes.
       const sent = link.sendUrgent('estop');
       if (sent) await Promise.race([sent.acked.catch(() => {}), new Promise((r) => setTimeout(r, 300))]);
