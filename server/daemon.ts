@@ -203,6 +203,7 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     hub.broadcast({ type: 'event', event });
     log(`[${event.level}] ${event.text}`);
   };
+  const pipeline = new TelemetryPipeline();
   // The calibration in force: the latest of the data folder's history (made with `ductbench calibrate`).
   let calibrationWarningsText: string[] = [];
   if (opts.dataDir) {
@@ -270,7 +271,6 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     checklist: checklistView(),
     sequences: sequences.examples(),
   });
-  const pipeline = new TelemetryPipeline();
   const history = new SampleRing(HISTORY_CAPACITY);
   const events: BenchEvent[] = [];
   const sampleListeners = new Set<(s: Sample, arrivedAt: number) => void>();
@@ -281,7 +281,10 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     onDisconnect: (client) => {
       if (client.role !== 'controller') return;
       // A paused run is disarmed already: end it quietly. Nobody is left to resume it.
-      if (sequences.live && sequences.view(false)?.state === 'paused') sequences.abortQuietly('controlling dashboard disconnected');
+      if (sequences.live && sequences.view(false)?.state === 'paused') {
+        sequences.abort();
+        return;
+      }
       // Losing the controlling dashboard while the motor may turn stops the motor: nobody is watching it.
       if (sequences.cut('controlling dashboard disconnected')) return;
       if (controller.state === 'armed' || controller.state === 'running') {
