@@ -4,7 +4,7 @@
 import { request } from 'node:http';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import WebSocket from 'ws';
-import type { ServerMessage, Snapshot } from '../server/api/messages.js';
+import { MAX_CLIENT_MESSAGE_BYTES, type ServerMessage, type Snapshot } from '../server/api/messages.js';
 import { startDaemon, type RunningDaemon } from '../server/daemon.js';
 import { ScriptedDevice } from './helpers/scripted-device.js';
 
@@ -165,7 +165,7 @@ describe('daemon WebSocket API', () => {
     const c = await connect();
     await c.next((m) => m.type === 'snapshot');
     const closed = new Promise<number>((r) => c.ws.once('close', (code) => r(code)));
-    c.send(JSON.stringify({ type: 'ping', pad: 'x'.repeat(10_000) }));
+    c.send(JSON.stringify({ type: 'ping', pad: 'x'.repeat(MAX_CLIENT_MESSAGE_BYTES + 10) }));
     expect(await closed).toBe(1009); // message too big
   });
 });

@@ -5,7 +5,13 @@
 import { afterEach, describe, expect, it } from 'vitest';
 import { startDaemon, type RunningDaemon } from '../server/daemon.js';
 import { runSimOnPty, type SimOnPty } from '../server/sim/index.js';
+import { CHECKLIST_IDS } from '../server/api/messages.js';
 import { TestClient } from './helpers/ws-client.js';
+
+/** A dashboard confirms the pre-arm checklist before its first arm (test/daemon-sequences.test.ts checks the gate). */
+async function confirmChecklist(c: TestClient): Promise<void> {
+  expect((await c.command({ type: 'checklist', items: [...CHECKLIST_IDS] })).ok).toBe(true);
+}
 
 const cleanups: (() => Promise<void> | void)[] = [];
 afterEach(async () => {
@@ -18,6 +24,7 @@ async function simDaemon(): Promise<{ d: RunningDaemon; c: TestClient }> {
   await d.firstConnect;
   const c = await TestClient.connect(d.port, d.token);
   cleanups.push(() => c.close());
+  await confirmChecklist(c);
   return { d, c };
 }
 
@@ -90,6 +97,7 @@ describe('daemon with the virtual bench behind a real pseudo-terminal', () => {
     const c = await TestClient.connect(d.port, d.token);
     cleanups.push(() => c.close());
     await c.until(() => c.samples.t.length > 50, 5000, 'samples over the pty');
+    await confirmChecklist(c);
     expect((await c.command({ type: 'arm' })).ok).toBe(true);
     expect((await c.command({ type: 'throttle', value: 0.4 })).ok).toBe(true);
     await c.until(() => sim.bench.state.output > 0.39, 3000, 'output up');

@@ -3,6 +3,7 @@
 // Pure module: no I/O, safe to import in the browser.
 
 import type { FaultCode } from '../../firmware-protocol/src/messages.js';
+import type { OperatingPoint } from '../bench/operating-point.js';
 
 export const API_VERSION = 1;
 
@@ -102,6 +103,98 @@ export interface Snapshot {
   events: BenchEvent[];
   /** Extension point for later features (model prediction, rig, atmosphere ...). */
   extras: Record<string, unknown>;
+  /** The sequence run in progress or the last one finished (with its points), or null; absent from older daemons. */
+  run?: SequenceRunView | null;
+}
+
+// ---------------------------------------------------------------- pre-arm checklist
+
+/**
+ * What the operator confirms before the first arm of a daemon session, declared once: the dashboard renders
+ * these, the daemon accepts a `checklist` message only when it lists every id. The daemon refuses `arm` and
+ * `sequence_start` from a dashboard until then. It is a prompt for people, not a safety device: the
+ * hard-wired power cut, the firmware and the interlocks are.
+ */
+export const CHECKLIST_ITEMS = [
+  { id: 'stand_secured', text: 'Stand clamped or bolted down; propeller fitted and its nut tight; nothing loose near the disk, intake or wash' },
+  { id: 'rotor_plane_clear', text: 'Nobody in the plane of rotation (operator, colleagues, camera)' },
+  { id: 'eye_protection', text: 'Eye protection on, for everyone in the room' },
+  { id: 'battery_supervised', text: 'Battery in a fire-safe place, supervised, above its minimum cell voltage; the hard-wired power cut is within reach' },
+  { id: 'limits_reviewed', text: 'Limits in force reviewed (shown below) and right for this propeller, motor and pack' },
+] as const;
+export type ChecklistItemId = (typeof CHECKLIST_ITEMS)[number]['id'];
+export const CHECKLIST_IDS: readonly ChecklistItemId[] = CHECKLIST_ITEMS.map((i) => i.id);
+
+/** snapshot.extras.checklist: whether this daemon session's checklist has been confirmed, and when. */
+export interface ChecklistView {
+  confirmed: boolean;
+  /** Host time of the confirmation (ms since epoch), or null. */
+  at: number | null;
+  items: readonly ChecklistItemId[];
+}
+
+// ---------------------------------------------------------------- sequences from the dashboard
+
+/** What to run: a shipped example by name, a staircase, or a sequence document pasted as JSON text. */
+export type SequenceSource =
+  | { kind: 'example'; name: string }
+  | { kind: 'staircase'; start: number; stop: number; step: number; hold_s: number; ramp_s?: number; window_s?: number }
+  | { kind: 'json'; text: string };
+
+/** snapshot.extras.sequences: the shipped example sequences the daemon can run by name. */
+export interface ExampleSequence {
+  /** File name without .json: what `{kind:'example', name}` takes. */
+  name: string;
+  title: string;
+  description: string | null;
+  steps: number;
+  /** Throttles of the steps, in order. */
+  throttles: number[];
+}
+
+/** Where a run is, as the dashboard shows it (mirrors the runner's RunProgress). */
+export interface RunProgressView {
+  state: string;
+  step: number;
+  steps: number;
+  target: number | null;
+  throttle: number;
+  points: number;
+  elapsed_s: number;
+  remaining_s: number | null;
+}
+
+/** One measured step, as the runner reports it (an OperatingPoint plus how it was taken). */
+export interface RunPointView extends OperatingPoint {
+  settle_s: number;
+  direction: 'up' | 'down' | null;
+  label: string | null;
+  pass: number[];
+}
+
+export interface SequenceRunView {
+  /** Counter of runs in this daemon session, from 1. */
+  run: number;
+  name: string;
+  /** Session recording the run, when the daemon keeps sessions. */
+  session: number | null;
+  state: string;
+  reason: string;
+  /** True while the runner may still move the motor (not finished). */
+  live: boolean;
+  progress: RunProgressView;
+  /** Final outcome once finished (completed, aborted, tripped, interrupted). */
+  outcome: string | null;
+  started_at: number;
+  ended_at: number | null;
+  /** Present in the snapshot; 'run' messages leave it out (points come one by one as 'run_point'). */
+  points?: RunPointView[];
+}
+
+/** A field-level problem with a sequence, as the daemon reports it on refusal. */
+export interface SequenceIssueView {
+  path: string;
+  rule: string;
 }
 
 export type ServerMessage =
@@ -112,8 +205,11 @@ export type ServerMessage =
   | { type: 'identity'; identity: DeviceIdentity | null }
   | { type: 'event'; event: BenchEvent }
   | { type: 'extras'; extras: Record<string, unknown> }
-  | { type: 'reply'; id: number; ok: true }
-  | { type: 'reply'; id: number; ok: false; error: string };
+  | { type: 'run'; run: SequenceRunView }
+  | { type: 'run_point'; run: number; point: RunPointView }
+  | { type: 'reply'; id: number; ok: true; data?: unknown }
+  /** `issues`: field-level problems, when a sequence was refused. */
+  | { type: 'reply'; id: number; ok: false; error: string; issues?: SequenceIssueView[] };
 
 export type ClientMessage =
   | { type: 'stop'; id?: number }
@@ -122,15 +218,38 @@ export type ClientMessage =
   | { type: 'throttle'; id?: number; value: number }
   | { type: 'clear'; id?: number }
   | { type: 'tare'; id?: number }
-  | { type: 'ping'; id?: number };
+  | { type: 'ping'; id?: number }
+  /** Every id of CHECKLIST_ITEMS, ticked by the operator. */
+  | { type: 'checklist'; id?: number; items: ChecklistItemId[] }
+  /** `check_only`: validate against the device and rig and reply with the plan, arming nothing. */
+  | { type: 'sequence_start'; id?: number; source: SequenceSource; title?: string; tags?: string[]; check_only?: boolean }
+  | { type: 'sequence_pause'; id?: number }
+  | { type: 'sequence_resume'; id?: number }
+  | { type: 'sequence_abort'; id?: number };
 
 export type ClientMessageType = ClientMessage['type'];
 
-/** Largest client message accepted, in bytes (the WebSocket server's maxPayload). */
-export const MAX_CLIENT_MESSAGE_BYTES = 4096;
+/**
+ * Largest client message accepted, in bytes (the WebSocket server's maxPayload). Room for a pasted sequence
+ * document; the rate limit keeps the parsing cost per client small.
+ */
+export const MAX_CLIENT_MESSAGE_BYTES = 64 * 1024;
+/** Longest pasted sequence text. */
+export const MAX_SEQUENCE_TEXT = 60 * 1024;
 
 /** Commands that need the controller role; viewers may only ping (and stop: anyone may stop the motor). */
-export const CONTROL_TYPES: ReadonlySet<ClientMessageType> = new Set(['arm', 'disarm', 'throttle', 'clear', 'tare']);
+export const CONTROL_TYPES: ReadonlySet<ClientMessageType> = new Set([
+  'arm',
+  'disarm',
+  'throttle',
+  'clear',
+  'tare',
+  'checklist',
+  'sequence_start',
+  'sequence_pause',
+  'sequence_resume',
+  'sequence_abort',
+]);
 
 const CLIENT_FIELDS: Record<ClientMessageType, readonly string[]> = {
   stop: [],
@@ -140,7 +259,49 @@ const CLIENT_FIELDS: Record<ClientMessageType, readonly string[]> = {
   clear: [],
   tare: [],
   ping: [],
+  checklist: ['items'],
+  sequence_start: ['source', 'title', 'tags', 'check_only'],
+  sequence_pause: [],
+  sequence_resume: [],
+  sequence_abort: [],
 };
+
+const SOURCE_FIELDS: Record<SequenceSource['kind'], { required: readonly string[]; optional: readonly string[] }> = {
+  example: { required: ['name'], optional: [] },
+  staircase: { required: ['start', 'stop', 'step', 'hold_s'], optional: ['ramp_s', 'window_s'] },
+  json: { required: ['text'], optional: [] },
+};
+
+function isObject(v: unknown): v is Record<string, unknown> {
+  return typeof v === 'object' && v !== null && !Array.isArray(v);
+}
+
+function checkSource(raw: unknown): string | null {
+  if (!isObject(raw)) return 'sequence_start.source must be an object';
+  const kind = raw.kind;
+  if (typeof kind !== 'string' || !Object.prototype.hasOwnProperty.call(SOURCE_FIELDS, kind)) {
+    return `sequence_start.source.kind must be one of ${Object.keys(SOURCE_FIELDS).join(', ')}`;
+  }
+  const f = SOURCE_FIELDS[kind as SequenceSource['kind']];
+  const allowed = new Set(['kind', ...f.required, ...f.optional]);
+  for (const k of Object.keys(raw)) if (!allowed.has(k)) return `sequence_start.source: unknown key ${JSON.stringify(k)} for kind ${kind}`;
+  for (const k of f.required) if (raw[k] === undefined) return `sequence_start.source.${k} is required for kind ${kind}`;
+  if (kind === 'example') {
+    const n = raw.name;
+    // A name, never a path: the daemon looks it up in its own list.
+    if (typeof n !== 'string' || !/^[A-Za-z0-9_-]{1,80}$/.test(n)) return 'sequence_start.source.name must be an example name (letters, digits, - and _)';
+  } else if (kind === 'json') {
+    if (typeof raw.text !== 'string') return 'sequence_start.source.text must be a string';
+    if (raw.text.length > MAX_SEQUENCE_TEXT) return `sequence_start.source.text is longer than ${MAX_SEQUENCE_TEXT} characters`;
+  } else {
+    // Ranges are the sequence schema's business (it names the field); here only the type.
+    for (const k of [...f.required, ...f.optional]) {
+      const v = raw[k];
+      if (v !== undefined && (typeof v !== 'number' || !Number.isFinite(v))) return `sequence_start.source.${k} must be a finite number`;
+    }
+  }
+  return null;
+}
 
 export type ParseResult<T> = { ok: true; value: T } | { ok: false; error: string };
 
@@ -168,6 +329,28 @@ export function parseClientMessage(text: string): ParseResult<ClientMessage> {
     const v = obj.value;
     if (typeof v !== 'number' || !Number.isFinite(v)) return { ok: false, error: 'throttle.value must be a finite number' };
     if (v < 0 || v > 1) return { ok: false, error: `throttle.value ${v} outside 0..1` };
+  }
+  if (type === 'checklist') {
+    const items = obj.items;
+    if (!Array.isArray(items) || items.length > CHECKLIST_IDS.length) return { ok: false, error: `checklist.items must be a list of at most ${CHECKLIST_IDS.length} item ids` };
+    const seen = new Set<string>();
+    for (const it of items) {
+      if (typeof it !== 'string' || !(CHECKLIST_IDS as readonly string[]).includes(it)) return { ok: false, error: `checklist.items: unknown item ${JSON.stringify(it)}` };
+      if (seen.has(it)) return { ok: false, error: `checklist.items: ${it} given twice` };
+      seen.add(it);
+    }
+  }
+  if (type === 'sequence_start') {
+    const bad = checkSource(obj.source);
+    if (bad) return { ok: false, error: bad };
+    if (obj.title !== undefined && (typeof obj.title !== 'string' || obj.title.length > 200)) return { ok: false, error: 'sequence_start.title must be a string of at most 200 characters' };
+    if (obj.tags !== undefined) {
+      const tags = obj.tags;
+      if (!Array.isArray(tags) || tags.length > 20 || tags.some((t) => typeof t !== 'string' || t.length === 0 || t.length > 64)) {
+        return { ok: false, error: 'sequence_start.tags must be a list of at most 20 non-empty strings of at most 64 characters' };
+      }
+    }
+    if (obj.check_only !== undefined && typeof obj.check_only !== 'boolean') return { ok: false, error: 'sequence_start.check_only must be true or false' };
   }
   return { ok: true, value: obj as unknown as ClientMessage };
 }

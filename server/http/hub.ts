@@ -4,7 +4,7 @@
 // keeps growing past a hard cap is disconnected.
 
 import type { WebSocket } from 'ws';
-import { CONTROL_TYPES, parseClientMessage, type ClientMessage, type Role, type ServerMessage } from '../api/messages.js';
+import { CONTROL_TYPES, parseClientMessage, type ClientMessage, type Role, type SequenceIssueView, type ServerMessage } from '../api/messages.js';
 
 /** Over this many buffered bytes a client gets no more sample batches until it drains. */
 export const SAMPLE_DROP_BYTES = 256 * 1024;
@@ -23,8 +23,11 @@ export interface Client {
 }
 
 export interface HubHandlers {
-  /** A validated message from a client; the reply is sent by the hub. */
-  onMessage(client: Client, msg: ClientMessage): Promise<void>;
+  /**
+   * A validated message from a client; the reply is sent by the hub, carrying what the promise resolves to
+   * (when not undefined) as `data`, or for a rejection whose error has an `issues` list, those issues.
+   */
+  onMessage(client: Client, msg: ClientMessage): Promise<unknown>;
   onConnect(client: Client): ServerMessage;
   onDisconnect(client: Client): void;
 }
@@ -116,8 +119,11 @@ export class Hub {
       }
     }
     this.h.onMessage(client, msg).then(
-      () => this.send(client, { type: 'reply', id, ok: true }),
-      (err: Error) => this.send(client, { type: 'reply', id, ok: false, error: err.message }),
+      (data) => this.send(client, data === undefined ? { type: 'reply', id, ok: true } : { type: 'reply', id, ok: true, data }),
+      (err: Error & { issues?: unknown }) => {
+        const issues = Array.isArray(err.issues) ? (err.issues as SequenceIssueView[]).map((i) => ({ path: String(i.path), rule: String(i.rule) })) : null;
+        this.send(client, issues ? { type: 'reply', id, ok: false, error: err.message, issues } : { type: 'reply', id, ok: false, error: err.message });
+      },
     );
   }
 

@@ -22,7 +22,54 @@ const TYPES: Record<string, string> = {
   '.woff2': 'font/woff2',
 };
 
-export type ApiHandler = (req: IncomingMessage, url: URL) => Promise<{ status: number; body: unknown }>;
+/** JSON (`body`), or text of another type (`text` with `contentType`; `download` names it as an attachment). */
+export type ApiResult = { status: number; body: unknown } | { status: number; text: string; contentType: string; download?: string };
+
+/** `params` holds the `:name` segments of a pattern key ("GET /api/sessions/:id"), decoded. */
+export type ApiHandler = (req: IncomingMessage, url: URL, params: Record<string, string>) => Promise<ApiResult>;
+
+interface Route {
+  method: string;
+  segments: string[];
+  handler: ApiHandler;
+}
+
+/**
+ * The `api` map's keys are "METHOD /path"; a segment written ":name" matches any one non-empty segment.
+ * Exact keys win over patterns, and among patterns the one with fewer parameters (then the first declared).
+ */
+export function routeFor(api: Record<string, ApiHandler>, method: string, pathname: string): { handler: ApiHandler; params: Record<string, string> } | 'bad_path' | null {
+  const exact = api[`${method} ${pathname}`];
+  if (exact) return { handler: exact, params: {} };
+  const parts = pathname.split('/');
+  const routes: Route[] = [];
+  for (const [key, handler] of Object.entries(api)) {
+    const sp = key.indexOf(' ');
+    if (!key.includes('/:')) continue;
+    routes.push({ method: key.slice(0, sp), segments: key.slice(sp + 1).split('/'), handler });
+  }
+  routes.sort((a, b) => a.segments.filter((x) => x.startsWith(':')).length - b.segments.filter((x) => x.startsWith(':')).length);
+  for (const r of routes) {
+    if (r.method !== method || r.segments.length !== parts.length) continue;
+    const params: Record<string, string> = {};
+    let ok = true;
+    for (let i = 0; i < parts.length && ok; i++) {
+      const want = r.segments[i];
+      if (want.startsWith(':')) {
+        if (parts[i] === '') ok = false;
+        else {
+          try {
+            params[want.slice(1)] = decodeURIComponent(parts[i]);
+          } catch {
+            return 'bad_path';
+          }
+        }
+      } else ok = want === parts[i];
+    }
+    if (ok) return { handler: r.handler, params };
+  }
+  return null;
+}
 
 export interface HttpOptions {
   host: string;
@@ -68,12 +115,34 @@ export async function startHttp(opts: HttpOptions): Promise<HttpSurface> {
         res.writeHead(401, { 'content-type': 'application/json' }).end(JSON.stringify({ error: 'token required' }));
         return;
       }
-      const h = opts.api?.[`${req.method} ${url.pathname}`];
-      if (!h) {
+      // A browser sends Origin on a state-changing fetch: only our own page may change sessions.
+      if (req.method !== 'GET' && req.method !== 'HEAD' && !originAllowed(req.headers.origin, hosts)) {
+        res.writeHead(403, { 'content-type': 'application/json' }).end(JSON.stringify({ error: 'foreign origin' }));
+        return;
+      }
+      const route = routeFor(opts.api ?? {}, req.method ?? 'GET', url.pathname);
+      if (route === 'bad_path') {
+        res.writeHead(400, { 'content-type': 'application/json' }).end(JSON.stringify({ error: 'malformed path' }));
+        return;
+      }
+      if (!route) {
         res.writeHead(404, { 'content-type': 'application/json' }).end(JSON.stringify({ error: 'no such endpoint' }));
         return;
       }
-      const r = await h(req, url);
+      const r = await route.handler(req, url, route.params);
+      if ('text' in r) {
+        res
+          .writeHead(r.status, {
+            'content-type': r.contentType,
+            'cache-control': 'no-store',
+            'x-content-type-options': 'nosniff',
+            ...(r.download ? { 'content-disposition': `attachment; filename="${r.download.replace(/[^A-Za-z0-9._-]/g, '_')}"` } : {}),
+            // A report opened from here runs nothing: it is inline SVG and text.
+            ...(r.contentType.startsWith('text/html') ? { 'content-security-policy': "default-src 'none'; style-src 'unsafe-inline'; img-src data:" } : {}),
+          })
+          .end(r.text);
+        return;
+      }
       res.writeHead(r.status, { 'content-type': 'application/json', 'cache-control': 'no-store' }).end(JSON.stringify(r.body));
       return;
     }
