@@ -7,6 +7,7 @@
 import { mkdtempSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
+import { CHECKLIST_IDS } from '../server/api/messages.js';
 import { afterEach, beforeAll, describe, expect, it } from 'vitest';
 import { runSimOnPty, type SimOnPty } from '../server/sim/index.js';
 import { assertBuilt, DaemonProcess, runCli, waitFor } from './helpers/sim-process.js';
@@ -91,6 +92,8 @@ describe('daemon killed with SIGKILL mid-sweep (bench behind a pty, daemon in it
     // The socket is reset when the daemon dies; that is expected, not a test failure.
     c.ws.on('error', () => {});
     cleanups.push(() => c.ws.terminate());
+    // The dashboard's pre-arm checklist gate (the daemon refuses arm until it is confirmed).
+    expect(await c.command({ type: 'checklist', items: [...CHECKLIST_IDS] })).toEqual({ ok: true });
     expect((await c.command({ type: 'arm' })).ok).toBe(true);
     expect((await c.command({ type: 'throttle', value: 0.3 })).ok).toBe(true);
     await waitFor(() => sim.bench.state.output > 0.29, 10_000, 'output up');
