@@ -57,10 +57,14 @@ export function staircaseDocument(s: Extract<SequenceSource, { kind: 'staircase'
     name: `staircase ${s.start} to ${s.stop} by ${s.step}`,
     steps: [
       {
-        staircase: { start: s.start, stop: s.stop, step: s.step },
-        hold_s: s.hold_s,
-        ...(s.ramp_s !== undefined ? { ramp_s: s.ramp_s } : {}),
-        ...(s.window_s !== undefined ? { window_s: s.window_s } : {}),
+        staircase: {
+          start: s.start,
+          stop: s.stop,
+          step: s.step,
+          hold_s: s.hold_s,
+          ...(s.ramp_s !== undefined ? { ramp_s: s.ramp_s } : {}),
+          ...(s.window_s !== undefined ? { window_s: s.window_s } : {}),
+        },
       },
     ],
   };

@@ -101,7 +101,8 @@ export class Hub {
     }
     const parsed = parseClientMessage(text);
     if (!parsed.ok) {
-      this.send(client, { type: 'reply', id: -1, ok: false, error: parsed.error });
+      // Answer to the message's own id when it has a readable one, so the sender can tell which was refused.
+      this.send(client, { type: 'reply', id: idOf(text), ok: false, error: parsed.error });
       return;
     }
     const msg = parsed.value;
@@ -131,5 +132,14 @@ export class Hub {
     if (!this.clients.delete(client.id)) return;
     if (this.controllerId === client.id) this.controllerId = null;
     this.h.onDisconnect(client);
+  }
+}
+
+function idOf(text: string): number {
+  try {
+    const id = (JSON.parse(text) as { id?: unknown } | null)?.id;
+    return Number.isSafeInteger(id) && (id as number) >= 0 ? (id as number) : -1;
+  } catch {
+    return -1;
   }
 }
