@@ -48,7 +48,7 @@ async function listSessions(dir: string): Promise<ListedSession[]> {
 
 /** The firmware latched a heartbeat loss and its ESC output is at the stop value. */
 async function heartbeatCut(sim: SimOnPty): Promise<void> {
-  await waitFor(() => sim.bench.state.fault === 'heartbeat', 10_000, `heartbeat latch (state ${JSON.stringify(sim.bench.state)})`);
+  await waitFor(() => sim.bench.state.fault === 'heartbeat', 10_000, () => `heartbeat latch (state ${JSON.stringify(sim.bench.state)})`);
   const s = sim.bench.state;
   expect(s.output).toBe(0);
   expect(s.armed).toBe(false);
@@ -64,7 +64,7 @@ describe('daemon killed with SIGKILL mid-sweep (bench behind a pty, daemon in it
     const { sim, dir } = await setUp(11);
     const run = daemon(['run', '--port', sim.devicePath, '--yes-i-have-checked', '--staircase', '0.2,0.5,0.1', '--hold', '4', '--ramp', '0.5', '--window', '1', '--json', '--data-dir', dir]);
     // Mid-sweep: the motor is turning under the run's command.
-    await waitFor(() => sim.bench.state.output >= 0.15, 30_000, `output up (stderr: ${run.stderr})`);
+    await waitFor(() => sim.bench.state.output >= 0.15, 30_000, () => `output up (stderr: ${run.stderr})`);
     expect(sim.bench.state.armed).toBe(true);
     run.kill('SIGKILL');
     expect((await run.exited).signal).toBe('SIGKILL');

@@ -15,7 +15,7 @@ afterEach(async () => {
   for (const c of cleanups.splice(0).reverse()) await c();
 });
 
-async function setUp(seed: number): Promise<{ pty: RawPtyBench; d: RunningDaemon; statuses: LinkStatus[]; logs: string[] }> {
+async function setUp(seed: number): Promise<{ pty: RawPtyBench; d: RunningDaemon; statuses: LinkStatus[]; logs: string[]; hostTrips: string[]; warnings: string[] }> {
   const pty = await rawPtyBench({ seed });
   cleanups.push(() => pty.close());
   const logs: string[] = [];
@@ -25,7 +25,25 @@ async function setUp(seed: number): Promise<{ pty: RawPtyBench; d: RunningDaemon
   expect(d.link.isReady).toBe(true);
   const statuses: LinkStatus[] = [];
   d.link.on('status', (v) => statuses.push(v.status));
-  return { pty, d, statuses, logs };
+  const hostTrips: string[] = [];
+  d.controller.on('trip', (t) => hostTrips.push(t.rule));
+  const warnings: string[] = [];
+  d.interlocks.on('warning', ({ rule }) => warnings.push(rule));
+  return { pty, d, statuses, logs, hostTrips, warnings };
+}
+
+/**
+ * Disarmed, garbage must never make the host trip. The bench here shares this process's event loop, so on a
+ * badly loaded machine pushing megabytes can stall it past the heartbeat time-out and the device latches
+ * 'heartbeat' by itself (the fail-safe answer to a stalled host); that latch is cleared like any other.
+ */
+async function expectUntripped(d: RunningDaemon, hostTrips: string[]): Promise<void> {
+  expect(hostTrips).toEqual([]);
+  if (d.controller.state === 'tripped') {
+    expect(d.controller.view().fault).toBe('heartbeat');
+    await d.controller.acknowledge();
+  }
+  await waitFor(() => d.controller.state === 'safe', 5000, 'safe');
 }
 
 /** The link's partial-line buffer (private: read for the bound, never written). */
@@ -54,7 +72,7 @@ function noise(n: number, seed: number): Buffer {
 
 describe('garbage on the serial line (pty device side)', () => {
   it('megabytes without a newline: one capped partial line at most, counted as too_long, link stays ready', async () => {
-    const { pty, d, statuses } = await setUp(31);
+    const { pty, d, statuses, hostTrips } = await setUp(31);
     let maxBuffered = 0;
     const watch = setInterval(() => (maxBuffered = Math.max(maxBuffered, buffered(d))), 2);
     cleanups.push(() => clearInterval(watch));
@@ -74,11 +92,11 @@ describe('garbage on the serial line (pty device side)', () => {
     expect(statuses).toEqual([]);
     // Good lines still get through once the noise stops.
     await waitFor(() => d.link.view().linesOk > okBefore + 200, 10_000, 'valid lines again');
-    expect(d.controller.state).toBe('safe');
+    await expectUntripped(d, hostTrips);
   });
 
   it('random bytes while disarmed: counted by reason, warned about, link and bench unaffected', async () => {
-    const { pty, d, statuses } = await setUp(32);
+    const { pty, d, statuses, hostTrips, warnings } = await setUp(32);
     const before = badTotal(d);
     for (let i = 0; i < 32; i++) await pty.writeRaw(noise(64 * 1024, 1000 + i));
     await waitFor(() => badTotal(d) > before + 100, 10_000, 'bad lines counted');
@@ -88,10 +106,11 @@ describe('garbage on the serial line (pty device side)', () => {
     expect(buffered(d)).toBeLessThanOrEqual(MAX_LINE_BYTES + 1);
     expect(d.link.isReady).toBe(true);
     expect(statuses).toEqual([]);
-    // Disarmed, a burst of bad lines is a warning, not a trip: nothing can turn.
-    expect(d.controller.state).toBe('safe');
     const ok = d.link.view().linesOk;
     await waitFor(() => d.link.view().linesOk > ok + 200, 10_000, 'valid lines again');
+    // Disarmed, a burst of bad lines is a warning, not a trip: nothing can turn.
+    await waitFor(() => warnings.includes('bad_line_burst'), 5000, 'bad-line burst warning');
+    await expectUntripped(d, hostTrips);
     // And the bench can still be driven afterwards.
     await d.controller.arm();
     await waitFor(() => pty.bench.state.armed, 5000, 'armed after the noise');
@@ -100,12 +119,11 @@ describe('garbage on the serial line (pty device side)', () => {
   });
 
   it('random bytes while the motor turns: the bad-line burst rule trips and the output is cut', async () => {
-    const { pty, d } = await setUp(33);
+    const { pty, d, hostTrips } = await setUp(33);
     await d.controller.arm();
     await d.controller.setThrottle(0.25);
     await waitFor(() => pty.bench.state.output > 0.24, 5000, 'output up');
-    const trips: string[] = [];
-    d.controller.on('trip', (t) => trips.push(t.rule));
+    const trips = hostTrips;
     let i = 0;
     // Noise until the bench trips (bounded: at most 8 MiB).
     while (d.controller.state !== 'tripped' && i < 128) await pty.writeRaw(noise(64 * 1024, 5000 + i++));

@@ -18,12 +18,12 @@ export function assertBuilt(): void {
   for (const f of [BUILT_SIM, BUILT_CLI]) if (!existsSync(f)) throw new Error(`${f} is missing: build first (npx tsc -p tsconfig.json; npm test does)`);
 }
 
-/** Resolves once check() holds (it may be async); rejects after timeoutMs with the label. */
-export async function waitFor(check: () => boolean | Promise<boolean>, timeoutMs = 10_000, label = 'condition', everyMs = 20): Promise<void> {
+/** Resolves once check() holds (it may be async); rejects after timeoutMs with the label (a function: read late). */
+export async function waitFor(check: () => boolean | Promise<boolean>, timeoutMs = 10_000, label: string | (() => string) = 'condition', everyMs = 20): Promise<void> {
   const deadline = Date.now() + timeoutMs;
   for (;;) {
     if (await check()) return;
-    if (Date.now() > deadline) throw new Error(`timed out after ${timeoutMs} ms waiting for ${label}`);
+    if (Date.now() > deadline) throw new Error(`timed out after ${timeoutMs} ms waiting for ${typeof label === 'string' ? label : label()}`);
     await new Promise((r) => setTimeout(r, everyMs));
   }
 }
@@ -132,7 +132,7 @@ export class SimProcess {
   /** Polls the bench's state until pred holds. */
   async until(pred: (s: BenchSnapshot) => boolean, timeoutMs = 10_000, label = 'bench state'): Promise<BenchSnapshot> {
     let last: BenchSnapshot | null = null;
-    await waitFor(async () => pred((last = await this.state())), timeoutMs, `${label} (last: ${JSON.stringify(last)})`);
+    await waitFor(async () => pred((last = await this.state())), timeoutMs, () => `${label} (last: ${JSON.stringify(last)})`);
     return last!;
   }
 
