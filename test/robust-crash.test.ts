@@ -1,16 +1,15 @@
 // A daemon killed with SIGKILL mid-sweep. The daemon is the compiled CLI in its own process, talking to the
-// virtual bench behind a real pseudo-terminal (the bench runs in this test process and keeps its own clock,
-// as a board on USB does). SIGKILL gives the daemon no chance to send STOP: only the firmware's heartbeat
+// virtual bench behind a real pseudo-terminal (the bench runs in a third process and keeps its own clock, as
+// a board on USB does). SIGKILL gives the daemon no chance to send STOP: only the firmware's heartbeat
 // time-out can cut the output. The session it was recording must come back as interrupted when the store
 // next opens. Needs dist/ (npm test builds first; alone: npx tsc -p tsconfig.json).
 
 import { mkdtempSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
-import { CHECKLIST_IDS } from '../server/api/messages.js';
 import { afterEach, beforeAll, describe, expect, it } from 'vitest';
-import { runSimOnPty, type SimOnPty } from '../server/sim/index.js';
-import { assertBuilt, DaemonProcess, runCli, waitFor } from './helpers/sim-process.js';
+import { assertBuilt, DaemonProcess, runCli, SimProcess, waitFor } from './helpers/sim-process.js';
+import { armFromDashboard } from './helpers/dashboard.js';
 import { TestClient } from './helpers/ws-client.js';
 
 const cleanups: (() => Promise<void> | void)[] = [];
@@ -19,10 +18,10 @@ afterEach(async () => {
 });
 beforeAll(() => assertBuilt());
 
-async function setUp(seed: number): Promise<{ sim: SimOnPty; dir: string }> {
+async function setUp(seed: number): Promise<{ sim: SimProcess; dir: string }> {
   const dir = mkdtempSync(join(tmpdir(), 'ductbench-robust-crash-'));
   cleanups.push(() => rmSync(dir, { recursive: true, force: true }));
-  const sim = await runSimOnPty({ seed, link: join(dir, 'tty') });
+  const sim = await SimProcess.start({ seed, link: join(dir, 'tty') });
   cleanups.push(() => sim.close());
   return { sim, dir };
 }
@@ -47,14 +46,14 @@ async function listSessions(dir: string): Promise<ListedSession[]> {
 }
 
 /** The firmware latched a heartbeat loss and its ESC output is at the stop value. */
-async function heartbeatCut(sim: SimOnPty): Promise<void> {
-  await waitFor(() => sim.bench.state.fault === 'heartbeat', 10_000, () => `heartbeat latch (state ${JSON.stringify(sim.bench.state)})`);
-  const s = sim.bench.state;
+async function heartbeatCut(sim: SimProcess): Promise<void> {
+  const s = await sim.until((x) => x.fault === 'heartbeat', 10_000, 'heartbeat latch');
   expect(s.output).toBe(0);
   expect(s.armed).toBe(false);
   expect(s.mode).toBe('latched');
   expect(s.hbOk).toBe(false);
-  const last = sim.bench.transitions[sim.bench.transitions.length - 1];
+  const tr = await sim.transitions();
+  const last = tr[tr.length - 1];
   expect(last.to).toBe('latched');
   expect(last.reason).toMatch(/heartbeat/);
 }
@@ -64,8 +63,9 @@ describe('daemon killed with SIGKILL mid-sweep (bench behind a pty, daemon in it
     const { sim, dir } = await setUp(11);
     const run = daemon(['run', '--port', sim.devicePath, '--yes-i-have-checked', '--staircase', '0.2,0.5,0.1', '--hold', '4', '--ramp', '0.5', '--window', '1', '--json', '--data-dir', dir]);
     // Mid-sweep: the motor is turning under the run's command.
-    await waitFor(() => sim.bench.state.output >= 0.15, 30_000, () => `output up (stderr: ${run.stderr})`);
-    expect(sim.bench.state.armed).toBe(true);
+    let last = await sim.state();
+    await waitFor(async () => (last = await sim.state()).output >= 0.15, 30_000, () => `output up (bench ${JSON.stringify(last)}; stderr: ${run.stderr})`);
+    expect(last.armed).toBe(true);
     run.kill('SIGKILL');
     expect((await run.exited).signal).toBe('SIGKILL');
     // No JSON result: the process never got to the end.
@@ -92,11 +92,8 @@ describe('daemon killed with SIGKILL mid-sweep (bench behind a pty, daemon in it
     // The socket is reset when the daemon dies; that is expected, not a test failure.
     c.ws.on('error', () => {});
     cleanups.push(() => c.ws.terminate());
-    // The dashboard's pre-arm checklist gate (the daemon refuses arm until it is confirmed).
-    expect(await c.command({ type: 'checklist', items: [...CHECKLIST_IDS] })).toEqual({ ok: true });
-    expect((await c.command({ type: 'arm' })).ok).toBe(true);
-    expect((await c.command({ type: 'throttle', value: 0.3 })).ok).toBe(true);
-    await waitFor(() => sim.bench.state.output > 0.29, 10_000, 'output up');
+    await armFromDashboard(c, 0.3);
+    await sim.until((x) => x.output > 0.29, 10_000, 'output up');
     await c.until(() => c.samples.t.length > 20, 10_000, 'samples while running');
     serve.kill('SIGKILL');
     expect((await serve.exited).signal).toBe('SIGKILL');

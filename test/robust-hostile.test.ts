@@ -8,8 +8,8 @@ import { afterAll, afterEach, beforeAll, describe, expect, it } from 'vitest';
 import WebSocket from 'ws';
 import { CHECKLIST_IDS, type ServerMessage } from '../server/api/messages.js';
 import { startDaemon, type RunningDaemon } from '../server/daemon.js';
-import { runSimOnPty, type SimOnPty } from '../server/sim/index.js';
-import { assertBuilt, DaemonProcess, waitFor } from './helpers/sim-process.js';
+import { assertBuilt, DaemonProcess, SimProcess, waitFor } from './helpers/sim-process.js';
+import { armFromDashboard } from './helpers/dashboard.js';
 import { TestClient } from './helpers/ws-client.js';
 
 const TOKEN = 'hostile-test-token-5b7e1c';
@@ -278,7 +278,7 @@ describe('Host and Origin checks before the handshake (raw requests)', () => {
 });
 
 describe('the token in the output of `ductbench serve` (own process)', () => {
-  let sim: SimOnPty | null = null;
+  let sim: SimProcess | null = null;
   let serve: DaemonProcess | null = null;
   afterEach(async () => {
     await serve?.close();
@@ -288,7 +288,7 @@ describe('the token in the output of `ductbench serve` (own process)', () => {
 
   it('is printed once, in the dashboard line on stdout, and never on stderr or in events', async () => {
     assertBuilt();
-    sim = await runSimOnPty({ seed: 52 });
+    sim = await SimProcess.start({ seed: 52 });
     const token = 'serve-secret-7d41aa90c3';
     serve = new DaemonProcess(['serve', '--port', sim.devicePath, '--http-port', '0'], { DUCTBENCH_TOKEN: token });
     const m = await serve.stdoutMatch(/dashboard: http:\/\/127\.0\.0\.1:(\d+)\/\?token=(\S+)\n/);
@@ -304,12 +304,10 @@ describe('the token in the output of `ductbench serve` (own process)', () => {
     }
     const c = await TestClient.connect(port, token);
     c.ws.on('error', () => {});
-    expect(await c.command({ type: 'checklist', items: [...CHECKLIST_IDS] })).toEqual({ ok: true });
-    expect(await c.command({ type: 'arm' })).toEqual({ ok: true });
-    expect(await c.command({ type: 'throttle', value: 0.2 })).toEqual({ ok: true });
-    await waitFor(() => sim!.bench.state.output > 0.19, 5000, 'output up');
+    await armFromDashboard(c, 0.2);
+    await sim.until((x) => x.output > 0.19, 5000, 'output up');
     expect(await c.command({ type: 'stop' })).toEqual({ ok: true });
-    await waitFor(() => sim!.bench.state.output === 0, 5000, 'cut');
+    await sim.until((x) => x.output === 0, 5000, 'cut');
     await c.until(() => c.messages.some((x) => x.type === 'event' && /emergency stop/.test(x.event.text)), 5000, 'stop event');
     c.ws.terminate();
     serve.kill('SIGTERM');
