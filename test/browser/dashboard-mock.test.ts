@@ -186,7 +186,8 @@ class MockDaemon {
       },
       history: this.samples(now - 5000, 500, 10),
       events: [{ t: now - 4000, level: 'info', kind: 'state', text: 'bench armed' }],
-      extras: { prediction: this.prediction() },
+      // The mock stands for a daemon whose pre-arm checklist was already confirmed (the real gate: dashboard-daemon.test.ts).
+      extras: { prediction: this.prediction(), checklist: { confirmed: true, at: Date.now(), items: [] } },
     };
     if (this.snapshotDelayMs > 0) {
       // Nothing else may reach the page before its snapshot: keep it out of the broadcast list meanwhile.

@@ -4,6 +4,7 @@ import './components/app.js';
 import { BenchClient, type SocketLike } from './data/client.js';
 import { takeToken, socketUrl } from './data/token.js';
 import { Preferences } from './data/units.js';
+import { SessionsApi } from './data/api.js';
 import type { DbApp } from './components/app.js';
 
 function storage(kind: 'localStorage' | 'sessionStorage'): Storage | null {
@@ -23,7 +24,8 @@ const client = new BenchClient({
 const prefs = new Preferences(storage('localStorage'));
 
 const app = document.createElement('db-app') as DbApp;
-app.dashboard = { client, prefs };
+const api = token ? new SessionsApi(location.origin, token, (url, init) => fetch(url, init)) : null;
+app.dashboard = { client, prefs, api };
 document.body.prepend(app);
 client.start();
 

@@ -11,6 +11,15 @@ import './live-chart.js';
 import './readouts.js';
 import './stop-button.js';
 import './view-options.js';
+import './checklist.js';
+import './sequence-panel.js';
+import './sessions-view.js';
+import './compare-view.js';
+import { NEED_CHECKLIST } from './checklist.js';
+
+/** The three views of the page: the live bench, the recorded sessions, a comparison. */
+export type AppView = 'bench' | 'sessions' | 'compare';
+const VIEW_LABELS: Record<AppView, string> = { bench: 'Live bench', sessions: 'Sessions', compare: 'Compare' };
 
 const LIVE_CHANNELS: SampleChannel[] = ['thrust', 'power', 'voltage', 'current', 'rpm'];
 
@@ -85,6 +94,31 @@ export class DbApp extends LitElement {
     db-efficiency-chart {
       grid-column: 1 / -1;
     }
+    nav {
+      display: flex;
+      gap: 0.3rem;
+    }
+    nav button {
+      font: inherit;
+      font-weight: 600;
+      padding: 0.3rem 0.8rem;
+      border: 1px solid var(--db-line-strong);
+      background: var(--db-panel);
+      color: var(--db-ink);
+      border-radius: 6px;
+      cursor: pointer;
+    }
+    nav button[aria-current='page'] {
+      background: var(--db-ink);
+      border-color: var(--db-ink);
+      color: #fff;
+    }
+    .page {
+      padding: 0.7rem 1rem 10rem;
+    }
+    [hidden] {
+      display: none !important;
+    }
     @media (max-width: 900px) {
       .layout {
         grid-template-columns: minmax(0, 1fr);
@@ -95,8 +129,11 @@ export class DbApp extends LitElement {
     }
   `;
 
-  static override properties = { dashboard: { attribute: false } };
+  static override properties = { dashboard: { attribute: false }, _view: { state: true }, _checklist: { state: true }, _compareIds: { state: true } };
   declare dashboard: Dashboard | null;
+  declare _view: AppView;
+  declare _checklist: boolean;
+  declare _compareIds: number[];
 
   private _releaseProvider: (() => void) | null = null;
   private _releaseKeys: (() => void) | null = null;
@@ -105,6 +142,15 @@ export class DbApp extends LitElement {
   constructor() {
     super();
     this.dashboard = null;
+    this._view = 'bench';
+    this._checklist = false;
+    this._compareIds = [];
+    this.addEventListener(NEED_CHECKLIST, () => (this._checklist = true));
+    this.addEventListener('db-close', () => (this._checklist = false));
+    this.addEventListener('db-compare', (e) => {
+      this._compareIds = (e as CustomEvent<number[]>).detail;
+      this._view = 'compare';
+    });
   }
 
   override connectedCallback(): void {
@@ -154,13 +200,22 @@ export class DbApp extends LitElement {
     return html`
       <db-caution-banner></db-caution-banner>
       <header>
-        <h1>ductbench <small>live bench</small></h1>
+        <h1>ductbench <small>${VIEW_LABELS[this._view].toLowerCase()}</small></h1>
+        <nav aria-label="Views">
+          ${(Object.keys(VIEW_LABELS) as AppView[]).map(
+            (v) => html`<button data-testid=${`view-${v}`} aria-current=${this._view === v ? 'page' : 'false'} @click=${() => (this._view = v)}>${VIEW_LABELS[v]}</button>`,
+          )}
+        </nav>
         <db-view-options></db-view-options>
       </header>
       ${blocking ? html`<div class="alert" role="alert" data-testid="connection-alert">${conn.reason}</div>` : ''}
-      <div class="layout">
+      ${this._checklist ? html`<db-checklist></db-checklist>` : ''}
+      ${this._view === 'sessions' ? html`<div class="page"><db-sessions-view></db-sessions-view></div>` : ''}
+      ${this._view === 'compare' ? html`<div class="page"><db-compare-view .ids=${this._compareIds}></db-compare-view></div>` : ''}
+      <div class="layout" ?hidden=${this._view !== 'bench'}>
         <div class="main">
           <db-readouts></db-readouts>
+          <db-sequence-panel></db-sequence-panel>
           <div class="charts">
             <db-efficiency-chart></db-efficiency-chart>
             ${LIVE_CHANNELS.map((ch) => html`<db-live-chart channel=${ch}></db-live-chart>`)}

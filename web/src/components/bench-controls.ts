@@ -3,6 +3,7 @@ import type { ClientMessageType } from '../../../server/api/messages.js';
 import { DashboardController } from '../data/context.js';
 import type { Command } from '../data/client.js';
 import { panelStyles } from './styles.js';
+import { NEED_CHECKLIST, checklistConfirmed } from './checklist.js';
 import type { ThrottleRequest } from './throttle-control.js';
 import './throttle-control.js';
 
@@ -29,7 +30,16 @@ export class DbBenchControls extends LitElement {
     `,
   ];
 
-  private readonly _dash = new DashboardController(this, ['connection', 'snapshot', 'bench', 'command']);
+  private readonly _dash = new DashboardController(this, ['connection', 'snapshot', 'bench', 'command', 'extras', 'run']);
+
+  /** Arm, or first the checklist when this daemon session has not had it (the daemon would refuse). */
+  private _arm(): void {
+    if (!checklistConfirmed(this._dash.client?.extras)) {
+      this.dispatchEvent(new CustomEvent(NEED_CHECKLIST, { bubbles: true, composed: true }));
+      return;
+    }
+    this._send({ type: 'arm' });
+  }
 
   private _send(cmd: Command): void {
     void this._dash.client?.send(cmd);
@@ -41,8 +51,23 @@ export class DbBenchControls extends LitElement {
     const can = c?.canControl ?? false;
     const state = b?.state;
     const armed = state === 'armed' || state === 'running';
+    const confirmed = checklistConfirmed(c?.extras);
+    // While a sequence runs it owns the throttle: the manual controls stand aside (stop still works).
+    const runLive = c?.run?.live ?? false;
     const last = c?.lastCommand;
-    const labels: Partial<Record<ClientMessageType, string>> = { arm: 'Arm', disarm: 'Disarm', tare: 'Tare', clear: 'Clear fault', throttle: 'Throttle', stop: 'Stop' };
+    const labels: Partial<Record<ClientMessageType, string>> = {
+      arm: 'Arm',
+      disarm: 'Disarm',
+      tare: 'Tare',
+      clear: 'Clear fault',
+      throttle: 'Throttle',
+      stop: 'Stop',
+      checklist: 'Checklist',
+      sequence_start: 'Sequence',
+      sequence_pause: 'Pause',
+      sequence_resume: 'Resume',
+      sequence_abort: 'Abort',
+    };
     return html`
       <h2>Controls</h2>
       ${c?.connection.state === 'live' && c.role === 'viewer'
@@ -52,15 +77,21 @@ export class DbBenchControls extends LitElement {
         : ''}
       ${c?.connection.state !== 'live' ? html`<p class="note">Controls wait for a live connection.</p>` : ''}
       <div class="buttons">
-        <button class="arm" data-testid="arm" ?disabled=${!can || state !== 'safe'} @click=${() => this._send({ type: 'arm' })}>Arm</button>
-        <button data-testid="disarm" ?disabled=${!can || !armed} @click=${() => this._send({ type: 'disarm' })}>Disarm</button>
+        <button class="arm" data-testid="arm" ?disabled=${!can || state !== 'safe' || runLive} @click=${() => this._arm()}>
+          ${confirmed ? 'Arm' : 'Arm…'}
+        </button>
+        <button data-testid="disarm" ?disabled=${!can || !armed || runLive} @click=${() => this._send({ type: 'disarm' })}>Disarm</button>
         <button data-testid="tare" ?disabled=${!can || state !== 'safe'} title="Zero the load cell (propeller still)" @click=${() => this._send({ type: 'tare' })}>
           Tare
         </button>
         <button data-testid="clear" ?disabled=${!can || state !== 'tripped'} @click=${() => this._send({ type: 'clear' })}>Clear fault</button>
       </div>
+      ${can && !confirmed
+        ? html`<p class="note" data-testid="checklist-note">Arming opens the pre-arm checklist first (once per daemon session).</p>`
+        : ''}
+      ${runLive ? html`<p class="note">A sequence is running: it holds the throttle. Abort it in the sequence panel, or stop.</p>` : ''}
       <db-throttle-control
-        ?disabled=${!can || !armed}
+        ?disabled=${!can || !armed || runLive}
         .ceiling=${b?.ceiling ?? 0}
         .command=${b?.throttleCommand ?? 0}
         @db-throttle=${(e: CustomEvent<ThrottleRequest>) => this._send({ type: 'throttle', value: e.detail.value })}

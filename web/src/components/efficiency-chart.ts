@@ -9,6 +9,18 @@ const MEASURED = '#1d6f7a';
 const MODEL = '#1c2430';
 const IDEAL_OPEN = '#8a94a3';
 const IDEAL_DUCTED = '#b4531b';
+const RUN_POINTS = '#c2185b';
+
+/** The air density and rig the daemon computes with (snapshot.extras.atmosphere and .rig). */
+export function airAndRig(extras: Readonly<Record<string, unknown>> | undefined): { density: number | null; source: string | null; rig: string | null } {
+  const a = extras?.atmosphere as { density_kg_m3?: unknown; source?: unknown } | undefined;
+  const r = extras?.rig as { name?: unknown } | null | undefined;
+  return {
+    density: typeof a?.density_kg_m3 === 'number' && Number.isFinite(a.density_kg_m3) ? a.density_kg_m3 : null,
+    source: typeof a?.source === 'string' ? a.source : null,
+    rig: typeof r?.name === 'string' ? r.name : null,
+  };
+}
 
 /**
  * Thrust per watt against thrust: the recent measured points as dots (the chosen time window, thinned to one
@@ -17,7 +29,7 @@ const IDEAL_DUCTED = '#b4531b';
  */
 export class DbEfficiencyChart extends PlotElement {
   constructor() {
-    super(['snapshot', 'samples', 'extras']);
+    super(['snapshot', 'samples', 'extras', 'run']);
   }
 
   protected override get plotHeight(): number {
@@ -38,10 +50,26 @@ export class DbEfficiencyChart extends PlotElement {
     return { thrust: u, eff: efficiencyUnit(u), xf: thrustFactor(u), yf: u === 'gf' ? 1 : GRAM_FORCE_N };
   }
 
+  private _airText(): string {
+    const a = airAndRig(this._dash.client?.extras);
+    const parts: string[] = [];
+    if (a.rig) parts.push(`rig ${a.rig}`);
+    if (a.density !== null) parts.push(`air ${a.density.toFixed(3)} kg/m³${a.source ? ` (${a.source})` : ''}`);
+    return parts.join(' · ');
+  }
+
   protected override renderHead() {
     const u = this._units();
     const p = readPrediction(this._dash.client?.extras);
-    return html`<span class="title">Thrust per watt</span><span class="muted">${u.eff} against thrust (${u.thrust})${p ? '' : ' · no model overlay'}</span>`;
+    const air = this._airText();
+    return html`<span class="title">Thrust per watt</span
+      ><span class="muted">${u.eff} against thrust (${u.thrust})${p ? '' : ' · no model overlay'}</span
+      >${air ? html`<span class="muted" data-testid="air">${air}</span>` : ''}`;
+  }
+
+  protected override pngDecor() {
+    const u = this._units();
+    return { title: 'Thrust per watt', subtitle: `${u.eff} against thrust (${u.thrust})${this._airText() ? ` · ${this._airText()}` : ''}` };
   }
 
   protected override makeOptions(width: number, height: number): uPlot.Options {
@@ -79,6 +107,14 @@ export class DbEfficiencyChart extends PlotElement {
         line('model', MODEL),
         line('ideal, open', IDEAL_OPEN, [6, 4]),
         line('ideal, ducted', IDEAL_DUCTED, [2, 3]),
+        {
+          label: 'sequence points',
+          stroke: RUN_POINTS,
+          fill: RUN_POINTS,
+          paths: uPlot.paths.points!(),
+          points: { show: false, size: 11, width: 0 },
+          facets: [{ scale: 'x', auto: true }, { scale: 'y', auto: true }],
+        } as uPlot.Series,
       ],
       axes: [
         { ...axis, label: `thrust (${u.thrust})`, labelSize: 18 },
@@ -108,12 +144,16 @@ export class DbEfficiencyChart extends PlotElement {
     const p = readPrediction(c?.extras);
     const scaleY = (a: (number | null)[]) => a.map((v) => (v === null ? null : v * u.yf));
     const px = p ? p.thrustN.map((v) => v * u.xf) : [];
+    // The operating points of the current (or last) sequence run, one large dot each.
+    const runPts = (c?.run?.points ?? []).filter((q) => q.channels.thrust && q.grams_per_watt !== null);
+    const run: [number[], number[]] = [runPts.map((q) => q.channels.thrust!.mean * u.xf), runPts.map((q) => (q.grams_per_watt as number) * u.yf)];
     const data = [
       null,
       measured,
       p ? [px, scaleY(p.gramsPerWatt)] : empty,
       p ? [px, scaleY(p.idealOpen)] : empty,
       p ? [px, scaleY(p.idealDucted)] : empty,
+      run,
     ];
     return { data: data as unknown as uPlot.AlignedData, points: measured[0].length, last };
   }

@@ -53,6 +53,10 @@ export class DbLiveChart extends PlotElement {
     return html`<span class="title">${TITLES[this.channel] ?? this.channel}</span><span class="muted">${this._unit().label}</span>`;
   }
 
+  protected override pngDecor() {
+    return { title: TITLES[this.channel] ?? this.channel, xLabel: 'host clock time', yLabel: `${TITLES[this.channel] ?? this.channel} (${this._unit().label})`, legend: [] };
+  }
+
   protected override makeOptions(width: number, height: number): uPlot.Options {
     const a = axisStyle(this);
     const axis = { stroke: a.stroke, grid: { stroke: a.grid, width: 1 }, ticks: { stroke: a.grid, width: 1 } };

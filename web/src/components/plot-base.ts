@@ -8,6 +8,7 @@ import uplotCss from 'uplot/dist/uPlot.min.css?inline';
 import { DashboardController } from '../data/context.js';
 import { FrameCoalescer } from '../data/frame.js';
 import type { ClientChange } from '../data/client.js';
+import { downloadChartPng, fileSlug, legendOf, type PngDecor } from './chart-png.js';
 
 export abstract class PlotElement extends LitElement {
   static override styles = [
@@ -44,6 +45,17 @@ export abstract class PlotElement extends LitElement {
       .u-legend {
         font-size: 0.75rem;
       }
+      .head .png {
+        margin-left: auto;
+        font: inherit;
+        font-size: 0.72rem;
+        padding: 0.1rem 0.45rem;
+        border: 1px solid var(--db-line-strong);
+        border-radius: 5px;
+        background: var(--db-panel);
+        color: var(--db-muted);
+        cursor: pointer;
+      }
     `,
   ];
 
@@ -78,10 +90,21 @@ export abstract class PlotElement extends LitElement {
   /** Builds the data for the current width; also returns what the test hooks report. */
   protected abstract makeData(width: number): { data: uPlot.AlignedData; points: number; last: number | null };
   protected abstract renderHead(): unknown;
+  /** Title, units and axis labels the PNG carries around uPlot's canvas. */
+  protected abstract pngDecor(): PngDecor;
 
   override render() {
-    return html`<div class="head">${this.renderHead()}</div>
+    return html`<div class="head">
+        ${this.renderHead()}<button class="png" data-testid="png" title="Download this chart as a PNG image" @click=${() => void this.downloadPng()}>PNG</button>
+      </div>
       <div class="plot" style="--plot-height:${this.plotHeight}px"></div>`;
+  }
+
+  /** Saves the chart as drawn now, with its title and axis labels. False when there is no chart yet. */
+  async downloadPng(): Promise<boolean> {
+    if (!this._plot) return false;
+    const d = this.pngDecor();
+    return downloadChartPng(this._plot, { legend: legendOf(this._plot), ...d }, `ductbench-${fileSlug(d.title)}-${new Date().toISOString().slice(0, 19).replace(/[:T]/g, '')}`);
   }
 
   protected override firstUpdated(_changed: PropertyValues): void {

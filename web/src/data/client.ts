@@ -11,6 +11,9 @@ import {
   type DeviceIdentity,
   type LinkView,
   type Role,
+  type RunPointView,
+  type SequenceIssueView,
+  type SequenceRunView,
   type ServerMessage,
   type Snapshot,
 } from '../../../server/api/messages.js';
@@ -32,10 +35,14 @@ export type SocketFactory = (url: string) => SocketLike;
 /** WebSocket.OPEN, spelled out so this module needs no DOM globals. */
 const OPEN = 1;
 
-export type ClientChange = 'connection' | 'snapshot' | 'samples' | 'bench' | 'link' | 'identity' | 'events' | 'extras' | 'command';
+export type ClientChange = 'connection' | 'snapshot' | 'samples' | 'bench' | 'link' | 'identity' | 'events' | 'extras' | 'command' | 'run';
 export type ClientListener = (change: ClientChange) => void;
 
-export type CommandResult = { ok: true } | { ok: false; error: string };
+/** `data`: what the daemon answered with; `issues`: field-level problems of a refused sequence. */
+export type CommandResult = { ok: true; data?: unknown } | { ok: false; error: string; issues?: SequenceIssueView[] };
+
+/** The sequence run as the dashboard keeps it: the latest view and every point so far. */
+export type RunState = SequenceRunView & { points: RunPointView[] };
 /** A client message as the caller writes it: the client adds the id. */
 export type Command = ClientMessage extends infer M ? (M extends ClientMessage ? Omit<M, 'id'> : never) : never;
 
@@ -68,6 +75,7 @@ export class BenchClient {
   private _identity: DeviceIdentity | null = null;
   private _events: BenchEvent[] = [];
   private _extras: Record<string, unknown> = {};
+  private _run: RunState | null = null;
   private _lastCommand: LastCommand | null = null;
   private _badMessages = 0;
   private _messages = 0;
@@ -118,6 +126,10 @@ export class BenchClient {
   }
   get extras(): Readonly<Record<string, unknown>> {
     return this._extras;
+  }
+  /** The sequence run in progress, or the last one this daemon session ran, or null. */
+  get run(): RunState | null {
+    return this._run;
   }
   get lastCommand(): LastCommand | null {
     return this._lastCommand;
@@ -353,12 +365,37 @@ export class BenchClient {
         this._extras = { ...this._extras, ...(msg.extras ?? {}) };
         this._emit('extras');
         return;
+      case 'run': {
+        const v = msg.run;
+        if (!v || typeof v !== 'object') return;
+        // A new run starts with no points; the same run keeps those it has.
+        const points = this._run && this._run.run === v.run ? this._run.points : [];
+        this._run = { ...v, points: Array.isArray(v.points) ? v.points : points };
+        this._emit('run');
+        return;
+      }
+      case 'run_point': {
+        if (!this._run || this._run.run !== msg.run) return; // a point of a run we have no view of yet
+        if (!this._run.points.some((p) => p.index === msg.point.index && p.t_start === msg.point.t_start)) {
+          this._run = { ...this._run, points: [...this._run.points, msg.point] };
+        }
+        this._emit('run');
+        return;
+      }
       case 'reply': {
         const p = this._pending.get(msg.id);
         if (!p) return; // a late reply after our time-out, or a ping we gave up on
         this._pending.delete(msg.id);
         clearTimeout(p.timer);
-        p.resolve(msg.ok ? { ok: true } : { ok: false, error: msg.error });
+        p.resolve(
+          msg.ok
+            ? msg.data === undefined
+              ? { ok: true }
+              : { ok: true, data: msg.data }
+            : Array.isArray(msg.issues)
+              ? { ok: false, error: msg.error, issues: msg.issues }
+              : { ok: false, error: msg.error },
+        );
         return;
       }
       default:
@@ -379,6 +416,8 @@ export class BenchClient {
     this._events = [];
     for (const e of s.events ?? []) this._pushEvent(e);
     this._extras = { ...(s.extras ?? {}) };
+    const r = s.run;
+    this._run = r && typeof r === 'object' ? { ...r, points: Array.isArray(r.points) ? r.points : [] } : null;
     // The snapshot's history replaces what we had: after a reconnect our copy has a hole of unknown size.
     this.ring.clear();
     if (s.history) this.ring.append(s.history);

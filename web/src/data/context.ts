@@ -5,10 +5,13 @@
 import type { ReactiveController, ReactiveControllerHost } from 'lit';
 import type { BenchClient, ClientChange } from './client.js';
 import type { Preferences } from './units.js';
+import type { SessionsApi } from './api.js';
 
 export interface Dashboard {
   client: BenchClient;
   prefs: Preferences;
+  /** The sessions HTTP API (null without a token). */
+  api?: SessionsApi | null;
 }
 
 const REQUEST = 'db-context-request';
