@@ -7,7 +7,7 @@ import { defineConfig } from 'vite';
 const root = fileURLToPath(new URL('.', import.meta.url));
 
 // For `vite --config web/vite.config.ts` during development: forward /ws to a running daemon, e.g.
-// DUCTBENCH_DAEMON=http://127.0.0.1:8417 (the daemon checks the token itself; the page keeps sending it).
+// DUCTBENCH_DAEMON=http://127.0.0.1:8417, and /api too (the daemon checks the token itself; the page keeps sending it).
 const daemon = process.env.DUCTBENCH_DAEMON;
 
 export default defineConfig({
@@ -24,6 +24,6 @@ export default defineConfig({
   server: {
     host: '127.0.0.1',
     fs: { allow: [resolve(root, '..')] },
-    proxy: daemon ? { '/ws': { target: daemon, ws: true } } : undefined,
+    proxy: daemon ? { '/ws': { target: daemon, ws: true }, '/api': { target: daemon } } : undefined,
   },
 });
