@@ -11,6 +11,7 @@ import type { BenchEvent, BenchState } from '../server/api/messages.js';
 import { startDaemon, type RunningDaemon } from '../server/daemon.js';
 import { loadSequence, SequenceRunner, type RunResult } from '../server/sequence/index.js';
 import { SessionStore } from '../server/store/store.js';
+import { armInProcess } from './helpers/dashboard.js';
 import { waitFor } from './helpers/sim-process.js';
 
 const cleanups: (() => Promise<void> | void)[] = [];
@@ -117,10 +118,9 @@ describe('unplug mid-sweep', () => {
   it('a dashboard-style session (armed by hand) is ended as interrupted by the unplug', async () => {
     const { d, dir } = await daemonWithStore(22);
     const sim = d.sim!;
-    await d.controller.arm();
+    await armInProcess(d, 0.3);
     const id = d.sessions!.sessionId;
     expect(id).not.toBeNull();
-    await d.controller.setThrottle(0.3);
     await waitFor(() => sim.state.output > 0.29, 5000, 'output up');
     sim.injectFault('unplug', { duration_ms: 600 });
     await waitFor(() => d.controller.state === 'disconnected', 5000, 'link lost');

@@ -13,6 +13,7 @@ import { identityCalibration } from '../server/bench/calibration.js';
 import { SessionKeeper } from '../server/bench/recording.js';
 import { startDaemon, type RunningDaemon } from '../server/daemon.js';
 import { DB_FILE, SessionStore } from '../server/store/store.js';
+import { armInProcess } from './helpers/dashboard.js';
 import { waitFor } from './helpers/sim-process.js';
 
 const cleanups: (() => Promise<void> | void)[] = [];
@@ -44,9 +45,8 @@ describe('a full disk while recording', () => {
     // Room for the session row and a few batches, then full.
     const { d, keeper, told } = await recordingDaemon(61, (empty) => empty + 16 * 4096);
     const sim = d.sim!;
-    await d.controller.arm();
+    await armInProcess(d, 0.3);
     expect(keeper.sessionId).not.toBeNull();
-    await d.controller.setThrottle(0.3);
     await waitFor(() => sim.state.output > 0.29, 5000, 'output up');
     await waitFor(() => told.some((e) => e.kind === 'recording' && e.level === 'error'), 15_000, 'operator told about the failing recording');
     const e = told.find((x) => x.kind === 'recording' && x.level === 'error')!;
@@ -73,12 +73,9 @@ describe('a full disk while recording', () => {
     const sim = d.sim!;
     fillCompletely(store);
     const errors = captureConsoleError();
-    await d.controller.arm();
-    await waitFor(() => sim.state.armed, 5000, 'armed');
-    // No session could be created ...
+    await armInProcess(d, 0.25);
+    // No session could be created, and the bench does not care.
     expect(keeper.sessionId).toBeNull();
-    // ... and the bench does not care.
-    await d.controller.setThrottle(0.25);
     await waitFor(() => sim.state.output > 0.24, 5000, 'output up');
     d.controller.stop('test');
     await waitFor(() => sim.state.output === 0, 5000, 'stop reached the device');

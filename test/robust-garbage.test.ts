@@ -8,6 +8,7 @@ import { MAX_LINE_BYTES } from '../firmware-protocol/src/messages.js';
 import type { LinkStatus } from '../server/api/messages.js';
 import { startDaemon, type RunningDaemon } from '../server/daemon.js';
 import { rawPtyBench, type RawPtyBench } from './helpers/raw-pty-bench.js';
+import { armInProcess } from './helpers/dashboard.js';
 import { waitFor } from './helpers/sim-process.js';
 
 const cleanups: (() => Promise<void> | void)[] = [];
@@ -120,8 +121,7 @@ describe('garbage on the serial line (pty device side)', () => {
 
   it('random bytes while the motor turns: the bad-line burst rule trips and the output is cut', async () => {
     const { pty, d, hostTrips } = await setUp(33);
-    await d.controller.arm();
-    await d.controller.setThrottle(0.25);
+    await armInProcess(d, 0.25);
     await waitFor(() => pty.bench.state.output > 0.24, 5000, 'output up');
     const trips = hostTrips;
     let i = 0;

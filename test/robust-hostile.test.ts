@@ -47,12 +47,7 @@ async function client(): Promise<TestClient> {
 async function armedController(throttle: number): Promise<TestClient> {
   const c = await client();
   expect(c.snapshot!.role).toBe('controller');
-  expect(await c.command({ type: 'checklist', items: [...CHECKLIST_IDS] })).toEqual({ ok: true });
-  expect(await c.command({ type: 'arm' })).toEqual({ ok: true });
-  // The bench's reason goes into the message: on a badly overloaded machine an in-process virtual bench can
-  // latch a heartbeat loss of its own (its clock and the daemon's heartbeat share one stalled event loop).
-  const r = await c.command({ type: 'throttle', value: throttle });
-  expect(r, `bench ${d.controller.state}: ${d.controller.view().reason}`).toEqual({ ok: true });
+  await armFromDashboard(c, throttle);
   await waitFor(() => Math.abs(d.sim!.state.output - throttle) < 1e-9, 5000, 'output at the throttle');
   return c;
 }

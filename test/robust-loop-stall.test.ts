@@ -7,6 +7,7 @@
 import { afterEach, describe, expect, it } from 'vitest';
 import { startDaemon } from '../server/daemon.js';
 import { LoopMonitor, type LoopClock, type LoopStall } from '../server/util/loop-monitor.js';
+import { armInProcess } from './helpers/dashboard.js';
 import { SimProcess, waitFor } from './helpers/sim-process.js';
 
 const cleanups: (() => Promise<void> | void)[] = [];
@@ -110,8 +111,7 @@ describe('a daemon whose event loop stalls while the motor turns (bench in anoth
     monitor.on('stall', (s) => stalls.push(s));
     monitor.start();
 
-    await d.controller.arm();
-    await d.controller.setThrottle(0.3);
+    await armInProcess(d, 0.3);
     await sim.until((s) => s.output > 0.29, 10_000, 'output up');
     const before = (await sim.transitions()).length;
 
