@@ -99,7 +99,9 @@ describe('daemon killed with SIGKILL mid-sweep (bench behind a pty, daemon in it
     expect((await serve.exited).signal).toBe('SIGKILL');
     await heartbeatCut(sim);
     const sessions = await listSessions(dir);
-    expect(sessions.map((s) => s.outcome)).toEqual(['interrupted']);
+    // Newest first. Earlier ones exist only if a loaded machine made an arming attempt trip (helpers/dashboard.ts).
+    expect(sessions[0].outcome).toBe('interrupted');
+    expect(sessions.slice(1).map((s) => s.outcome)).toEqual(sessions.slice(1).map(() => 'tripped'));
     expect(sessions[0].sample_count).toBeGreaterThan(0);
   });
 });

@@ -26,7 +26,10 @@ export async function armFromDashboard(c: TestClient, throttle: number): Promise
       const r = await c.command(msg as never);
       if (r.ok) continue;
       why = `${msg.type} refused: ${r.error} (bench ${c.bench.state}: ${c.bench.reason})`;
-      if (!/heartbeat/.test(why)) throw new Error(why);
+      // The refusal may come before the device's latch reaches the dashboard: wait for it.
+      await c.until(() => c.bench.fault !== 'none', 5000, 'the reason for the refusal').catch(() => {});
+      if (c.bench.fault !== 'heartbeat') throw new Error(why);
+      await c.until(() => c.bench.state === 'tripped', 5000, 'tripped');
       failed = true;
       break;
     }
@@ -49,9 +52,11 @@ export async function armInProcess(d: RunningDaemon, throttle: number): Promise<
       return;
     } catch (err) {
       why = `${(err as Error).message} (bench ${d.controller.state}: ${d.controller.view().reason})`;
-      if (!/heartbeat/.test(why)) throw err;
-      // Let the device's latch reach the host before clearing it.
+      // The refusal may come before the device's latch reaches the host (a THR refused as latched, a ramp
+      // ended by the trip): wait for it, then retry only if the latch is a heartbeat loss.
       const t0 = Date.now();
+      while (d.controller.view().fault === 'none' && Date.now() - t0 < 5000) await new Promise((r) => setTimeout(r, 20));
+      if (d.controller.view().fault !== 'heartbeat') throw err;
       while (d.controller.state !== 'tripped' && Date.now() - t0 < 5000) await new Promise((r) => setTimeout(r, 20));
     }
   }
