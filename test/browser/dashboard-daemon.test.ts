@@ -131,6 +131,17 @@ describe('sequences, sessions and comparison from the dashboard', () => {
 
   const runAttr = (page: Page, name: string) => page.getByTestId('run').getAttribute(name, { timeout: 2000 }).catch(() => null);
 
+  /** Clicks Start and waits for the run to be live; a refusal fails with the page's own words. */
+  async function startAndWait(page: Page): Promise<void> {
+    await page.getByTestId('seq-start').click();
+    const why = async () => `${(await page.getByTestId('seq-message').textContent()) ?? ''} ${(await page.getByTestId('seq-issues').textContent({ timeout: 500 }).catch(() => '')) ?? ''} ${(await page.getByTestId('command-result').textContent()) ?? ''}`;
+    await eventually(
+      async () => ((await runAttr(page, 'data-live')) === 'true' || (await runAttr(page, 'data-state')) === 'completed' ? 'running' : await why()),
+      (v) => v === 'running',
+      'the run to start',
+    );
+  }
+
   async function fillStaircase(page: Page): Promise<void> {
     await page.getByTestId('seq-kind-staircase').click();
     for (const [k, v] of [['start', '30'], ['stop', '50'], ['step', '10'], ['ramp_s', '0.5'], ['hold_s', '1'], ['window_s', '0.5']]) {
@@ -153,9 +164,7 @@ describe('sequences, sessions and comparison from the dashboard', () => {
     await page.getByTestId('checklist').waitFor({ state: 'visible' });
     expect(d2.sim!.state.armed).toBe(false);
     await completeChecklist(page);
-    await page.getByTestId('seq-start').click();
-
-    await eventually(() => runAttr(page, 'data-live'), (v) => v === 'true', 'the run to start');
+    await startAndWait(page);
     await eventually(() => page.getByTestId('run-step').textContent(), (t) => /step [123] of 3/.test(t ?? ''), 'step k of 3');
     await eventually(() => runAttr(page, 'data-points'), (v) => Number(v) >= 1, 'a first operating point');
     await expect(page.getByTestId('run-left').textContent()).resolves.toMatch(/left/);
@@ -201,7 +210,7 @@ describe('sequences, sessions and comparison from the dashboard', () => {
     const { page } = opened;
     await fillStaircase(page);
     await page.getByTestId('seq-title').fill('stopped by button');
-    await page.getByTestId('seq-start').click();
+    await startAndWait(page);
     await eventually(async () => d2.sim!.state.output, (o) => o > 0.2, 'spinning');
     await page.getByTestId('stop').click();
     await eventually(async () => d2.sim!.state.output, (o) => o === 0, 'output cut by the stop button');
