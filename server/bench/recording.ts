@@ -86,14 +86,15 @@ export class SessionKeeper {
     if (rec) rec.finish(outcome);
   }
 
-  private begin(): number {
+  private begin(): number | null {
     if (this.rec) this.finish(this.managed ? 'interrupted' : 'completed');
     const intent = this.intent ?? {};
     this.intent = null;
     this.managed = intent.managed ?? false;
     const ctx = this.context();
     const when = new Date();
-    this.rec = this.store.record(
+    try {
+      this.rec = this.store.record(
       {
         title: intent.title ?? `${ctx.rig?.name ?? 'bench'} ${when.toISOString().slice(0, 16).replace('T', ' ')}`,
         tags: intent.tags ?? [],
@@ -115,7 +116,15 @@ export class SessionKeeper {
         onRecovered: ({ dropped }) =>
           this.tell({ t: Date.now(), level: 'warn', kind: 'recording', text: `recording works again${dropped ? `; ${dropped} samples were lost` : ''}` }),
       },
-    );
+      );
+    } catch (err) {
+      // A store that cannot even open a session (disk already full, database locked) must not stop the bench
+      // from arming, and the operator must hear that this run is not being recorded.
+      this.rec = null;
+      this.managed = false;
+      this.tell({ t: Date.now(), level: 'error', kind: 'recording', text: `this run is NOT being recorded: ${(err as Error).message}; bench control is unaffected` });
+      return null;
+    }
     return this.rec.id;
   }
 }

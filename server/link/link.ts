@@ -133,6 +133,8 @@ export class DeviceLink extends TypedEmitter<LinkEvents> {
   private wanted = false;
   /** Lines seen during the handshake that did not decode: tells "wrong device" from "silent device". */
   private handshakeJunk = 0;
+  /** Set while the HELLO sent after a device reboot waits for its IDENT. */
+  private rehandshake = false;
   /** Bumped on every (re)connection so callbacks from an old transport are ignored. */
   private generation = 0;
   private counters = { linesOk: 0, linesBad: {} as Record<string, number>, seqGaps: 0, writeDropped: 0, reconnects: 0 };
@@ -337,6 +339,7 @@ export class DeviceLink extends TypedEmitter<LinkEvents> {
     this.splitter.reset();
     this.rxSeq = null;
     this.handshakeJunk = 0;
+    this.rehandshake = false;
     this.setStatus('handshaking');
     const hello = () => this.send('HELLO', { proto: PROTOCOL_VERSION, host: 'ductbench' });
     hello();
@@ -387,8 +390,16 @@ export class DeviceLink extends TypedEmitter<LinkEvents> {
     this.identityValue = id;
     this.emit('identity', id);
     if (wasReady) {
-      // An IDENT while ready means the controller rebooted (watchdog, brown-out): it is disarmed now.
+      if (this.rehandshake) {
+        // The answer to our own HELLO after a reboot: not another reboot.
+        this.rehandshake = false;
+        return;
+      }
+      // An IDENT while ready means the controller rebooted (watchdog, brown-out): it is disarmed now, and it
+      // has forgotten the handshake, so it would refuse even CLEAR. Handshake again on the same connection.
       this.emit('frame', frame);
+      this.rehandshake = true;
+      this.send('HELLO', { proto: PROTOCOL_VERSION, host: 'ductbench' });
       return;
     }
     if (this.helloTimer) clearInterval(this.helloTimer);
