@@ -54,8 +54,19 @@ async function main(): Promise<void> {
   const loadBefore = loadavg();
   const ratios: Record<string, number | null> = {};
   const detail: Record<string, unknown> = {};
+  const failed: Record<string, string> = {};
+  // One part that cannot run (no socat, a half-rebuilt dist/ from a neighbour's build) must not hide the others.
+  const part = async (name: string, fn: () => Promise<void>) => {
+    try {
+      await fn();
+    } catch (err) {
+      failed[name] = (err as Error).message;
+      rows.push({ label: `${name}: could not run`, value: null, unit: '', note: (err as Error).message.split('\n')[0].slice(0, 160) });
+      log(`${name} failed: ${(err as Error).stack ?? (err as Error).message}`);
+    }
+  };
 
-  if (want('ingest')) {
+  if (want('ingest')) await part('ingest', async () => {
     const N = quick ? 100_000 : 300_000;
     log(`ingest through a pseudo-terminal, ${N} lines a reader, two rounds ...`);
     const runs = { full: [] as number[], bare: [] as number[], serialport: [] as number[], pyChunk: [] as (number | null)[], pyLine: [] as (number | null)[] };
@@ -101,9 +112,9 @@ async function main(): Promise<void> {
     ratios.full_over_python_chunked = ratio(full, pyC);
     ratios.full_over_python_readline = ratio(full, pyL);
     ratios.bare_over_serialport_read = ratio(bare, sp);
-  }
+  });
 
-  if (want('cut')) {
+  if (want('cut')) await part('cut', async () => {
     const trips = quick ? 60 : 200;
     const per: Record<string, CutLatency> = {};
     for (const rate of [1000, 20_000]) {
@@ -124,18 +135,18 @@ async function main(): Promise<void> {
       json[`cut_unmatched_${k}`] = c.unmatched;
     }
     detail.cut = per;
-  }
+  });
 
-  if (want('ws')) {
+  if (want('ws')) await part('ws', async () => {
     log('serial line to WebSocket message at 1 kHz ...');
     const lat = await wsLatency(1000, quick ? 3 : 8);
     row('ws_latency_p50_ms', { label: 'serial line -> WebSocket message, p50 (1 kHz, 50 ms batches)', value: lat.p50, unit: 'ms' });
     row('ws_latency_p99_ms', { label: 'serial line -> WebSocket message, p99', value: lat.p99, unit: 'ms', target: '<= 60', met: lat.p99 <= 60 });
     json.ws_latency_samples = lat.n;
     detail.ws = lat;
-  }
+  });
 
-  if (want('dashboard')) {
+  if (want('dashboard')) await part('dashboard', async () => {
     if (!chromiumAvailable()) {
       row('frame_time_p95_ms', { label: 'dashboard frame work p95', value: null, unit: 'ms', note: 'chromium not installed' });
     } else {
@@ -155,9 +166,9 @@ async function main(): Promise<void> {
       json.dashboard_points_drawn_per_chart = db.points_drawn_per_chart;
       detail.dashboard = db;
     }
-  }
+  });
 
-  if (want('model')) {
+  if (want('model')) await part('model', async () => {
     log('model ...');
     const m = benchModel(quick);
     row('model_curve_ms', { label: 'model: build (BEMT, 40 stations) + 50-point curve', value: m.curve_ms, unit: 'ms', target: '<= 5', met: m.curve_ms <= 5 });
@@ -169,9 +180,9 @@ async function main(): Promise<void> {
     ratios.curve_over_single_bemt = ratio(m.curve_ms, m.baseline_single_bemt_ms);
     ratios.curve_over_ideal_curve = ratio(m.curve_ms, m.baseline_ideal_curve_ms);
     ratios.fit_over_curve = ratio(m.fit_ms, m.curve_ms);
-  }
+  });
 
-  if (want('memory')) {
+  if (want('memory')) await part('memory', async () => {
     const N = quick ? 600_000 : 3_600_000;
     const warm = quick ? 100_000 : 300_000;
     log(`daemon memory over ${N} lines (one hour of 1 kHz telemetry, compressed) ...`);
@@ -185,9 +196,9 @@ async function main(): Promise<void> {
     row('memory_run_lines_per_s', { label: '  ingest rate over the long run', value: r.lines_per_s, unit: 'lines/s' });
     row('memory_run_recorded_samples', { label: '  samples recorded in the session', value: r.recorded_samples, unit: 'rows' });
     detail.memory = r;
-  }
+  });
 
-  if (want('store')) {
+  if (want('store')) await part('store', async () => {
     log('session store ...');
     const s = await benchStore();
     row('insert_samples_per_s', { label: 'store: recorder inserts', value: s.insert_samples_per_s, unit: 'samples/s', target: '>= 200000', met: s.insert_samples_per_s >= 200_000 });
@@ -198,7 +209,7 @@ async function main(): Promise<void> {
     json.points_per_session = s.points_per_session;
     ratios.recorder_over_one_per_transaction = ratio(s.insert_samples_per_s, s.baseline_one_per_transaction_samples_per_s);
     ratios.recorder_over_plain_loop = ratio(s.insert_samples_per_s, s.baseline_plain_loop_samples_per_s);
-  }
+  });
 
   const machine = {
     cpus: cpus().length,
@@ -224,7 +235,7 @@ async function main(): Promise<void> {
     for (const [k, v] of Object.entries(ratios)) process.stdout.write(`  ${k.padEnd(36)}${fmt(v).padStart(10)}\n`);
   }
   mkdirSync(dirname(out), { recursive: true });
-  writeFileSync(out, JSON.stringify({ ...json, ratios, machine, detail }, null, 2) + '\n');
+  writeFileSync(out, JSON.stringify({ ...json, ratios, machine, failed, detail }, null, 2) + '\n');
   process.stdout.write(`\n${machine.seconds.toFixed(0)} s; JSON written to ${out}\n`);
   process.exit(0);
 }
