@@ -119,7 +119,18 @@ describe('sequences, sessions and comparison from the dashboard', () => {
 
   beforeAll(async () => {
     dataDir = await mkdtemp(join(tmpdir(), 'ductbench-web-sessions-'));
-    d2 = await startDaemon({ source: { kind: 'sim', seed: 33 }, httpPort: 0, webRoot, dataDir, log: () => {} });
+    // The browser, its build and this daemon share a loaded 2-core machine: an event-loop stall of a few
+    // hundred milliseconds trips the stale-telemetry rule (tested on its own elsewhere), so its margin is
+    // widened here. The firmware's 300 ms heartbeat cut cannot be (the daemon refuses a longer one): a sweep
+    // it ends is run again, see runToEnd.
+    d2 = await startDaemon({
+      source: { kind: 'sim', seed: 33 },
+      httpPort: 0,
+      webRoot,
+      dataDir,
+      limits: { stale_ms: 2000, thrust_stale_ms: 3000 },
+      log: () => {},
+    });
     await d2.firstConnect;
     opened = await openDashboard(browser, d2.url, { viewport: { width: 1400, height: 1100 } });
   }, 120_000);
@@ -133,6 +144,7 @@ describe('sequences, sessions and comparison from the dashboard', () => {
 
   /** Clicks Start and waits for the run to be live; a refusal fails with the page's own words. */
   async function startAndWait(page: Page): Promise<void> {
+    if (d2.controller.state === 'tripped') await d2.controller.acknowledge();
     await page.getByTestId('seq-start').click();
     const why = async () => `${(await page.getByTestId('seq-message').textContent()) ?? ''} ${(await page.getByTestId('seq-issues').textContent({ timeout: 500 }).catch(() => '')) ?? ''} ${(await page.getByTestId('command-result').textContent()) ?? ''}`;
     await eventually(
@@ -140,6 +152,19 @@ describe('sequences, sessions and comparison from the dashboard', () => {
       (v) => v === 'running',
       'the run to start',
     );
+  }
+
+  /**
+   * Starts the form's sequence and waits for its end. A run ended by the device's heartbeat latch (the test
+   * machine stalled, not the dashboard) is cleared and started again, at most twice; any other end is returned.
+   */
+  async function runToEnd(page: Page, timeoutMs = 60_000): Promise<string> {
+    for (let attempt = 0; ; attempt++) {
+      await startAndWait(page);
+      const end = await eventually(() => runAttr(page, 'data-state'), (v) => v === 'completed' || v === 'aborted' || v === 'tripped' || v === 'interrupted', 'the run to end', timeoutMs);
+      const heartbeat = end === 'tripped' && d2.controller.view().fault === 'heartbeat';
+      if (!heartbeat || attempt >= 2) return end ?? '';
+    }
   }
 
   async function fillStaircase(page: Page): Promise<void> {
@@ -169,7 +194,10 @@ describe('sequences, sessions and comparison from the dashboard', () => {
     await eventually(() => runAttr(page, 'data-points'), (v) => Number(v) >= 1, 'a first operating point');
     await expect(page.getByTestId('run-left').textContent()).resolves.toMatch(/left/);
     await page.screenshot({ path: join(ARTIFACTS_DIR, 'dashboard-sequence-running.png'), fullPage: true });
-    await eventually(() => runAttr(page, 'data-state'), (v) => v === 'completed', 'the run to complete', 60_000);
+    let end = await eventually(() => runAttr(page, 'data-state'), (v) => v === 'completed' || v === 'aborted' || v === 'tripped' || v === 'interrupted', 'the run to end', 60_000);
+    // a stalled test machine can latch the firmware's heartbeat cut: run it again (see runToEnd)
+    if (end === 'tripped' && d2.controller.view().fault === 'heartbeat') end = await runToEnd(page);
+    expect(end).toBe('completed');
     const rows = page.getByTestId('run-points').locator('tbody tr');
     expect(await rows.count()).toBe(3);
     // throttle, thrust, ±, power, g/W, FM, predicted g/W, deviation: all numbers
@@ -201,8 +229,7 @@ describe('sequences, sessions and comparison from the dashboard', () => {
     await page.getByTestId('seq-json').fill(good);
     await expect(page.getByTestId('seq-json-status').textContent()).resolves.toMatch(/valid: 3 steps/);
     await page.getByTestId('seq-title').fill('browser staircase two');
-    await page.getByTestId('seq-start').click();
-    await eventually(() => runAttr(page, 'data-state'), (v) => v === 'completed', 'the second run to complete', 60_000);
+    expect(await runToEnd(page)).toBe('completed');
     expect(errors).toEqual([]);
   });
 
@@ -225,18 +252,20 @@ describe('sequences, sessions and comparison from the dashboard', () => {
     const { page, errors } = opened;
     await page.getByTestId('view-sessions').click();
     const list = page.getByTestId('sessions-list');
-    await eventually(() => list.locator('tbody tr').count(), (n) => n === 3, 'three sessions listed');
+    await eventually(() => list.locator('tbody tr').count(), (n) => n >= 3, 'three sessions listed');
+    const all = await list.locator('tbody tr').count();
     const text = (await list.textContent()) ?? '';
     expect(text).toContain('browser staircase one');
     expect(text).toContain('browser staircase two');
     expect(text).toContain('stopped by button');
     // a filter narrows it
     await page.getByTestId('filter-outcome').selectOption('aborted');
-    await eventually(() => list.locator('tbody tr').count(), (n) => n === 1, 'one aborted session');
+    await eventually(() => list.locator('tbody tr', { hasText: 'completed' }).count(), (n) => n === 0, 'only aborted sessions');
+    expect(await list.locator('tbody tr', { hasText: 'stopped by button' }).count()).toBe(1);
     await page.getByTestId('filter-outcome').selectOption('');
-    await eventually(() => list.locator('tbody tr').count(), (n) => n === 3, 'all again');
+    await eventually(() => list.locator('tbody tr').count(), (n) => n === all, 'all again');
 
-    const id = async (title: string) => Number(await list.locator('tr', { hasText: title }).getAttribute('data-session'));
+    const id = async (title: string) => Number(await list.locator('tr', { hasText: title }).filter({ hasText: 'completed' }).first().getAttribute('data-session'));
     const one = await id('browser staircase one');
     const two = await id('browser staircase two');
     // open the first: plots, points and events
