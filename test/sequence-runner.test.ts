@@ -188,7 +188,7 @@ describe('sequence runner on the virtual bench', () => {
     const res = await r.start();
     expect(pausedArmed).toBe(false);
     expect(pausedOutput).toBe(0);
-    expect(res.outcome).toBe('completed');
+    expect(res.outcome, `${res.reason} ${JSON.stringify(res.trip)}`).toBe('completed');
     expect(res.points.map((p) => p.index)).toEqual([0, 1, 2]);
     const path = res.transitions.map((t) => t.to);
     expect(path).toContain('paused');

@@ -134,6 +134,8 @@ export class Interlocks extends TypedEmitter<InterlockEvents> {
   private timer: NodeJS.Timeout | null = null;
   private output = 0;
   private outputZeroSince: number | null = null;
+  /** When the bench last became energised (armed), so "zero output for a while" counts from the arming. */
+  private mayTurnSince: number | null = null;
   private lastFrameAt: number | null = null;
   private lastThrustAt: number | null = null;
   private cells: number | null;
@@ -197,6 +199,8 @@ export class Interlocks extends TypedEmitter<InterlockEvents> {
       else this.outputZeroSince = null;
     }
     const mayTurn = this.mayTurn();
+    if (mayTurn) this.mayTurnSince ??= now;
+    else this.mayTurnSince = null;
     if (this.cells === null && !mayTurn && s.voltage !== null && s.voltage > 2) {
       // Resting voltage of a charged pack is at most 4.2-4.25 V a cell, so this never overcounts.
       this.cells = Math.ceil(s.voltage / 4.25);
@@ -237,7 +241,8 @@ export class Interlocks extends TypedEmitter<InterlockEvents> {
       now,
       mayTurn,
       output: this.output,
-      outputZeroSince: this.outputZeroSince,
+      // Armed, the zero-output clock starts at the arming: the spin-down and the arming itself are not a loose rig.
+      outputZeroSince: this.outputZeroSince === null ? null : mayTurn && this.mayTurnSince !== null ? Math.max(this.outputZeroSince, this.mayTurnSince) : this.outputZeroSince,
       outputSteadyForMs: now - this.outputChangedAt,
       diameterM: this.opts.diameterM,
       speedOfSound: Math.sqrt(GAMMA_AIR * R_AIR * T),
