@@ -28,6 +28,7 @@ import type { VirtualBench } from './sim/index.js';
 import { Interlocks } from './interlocks/engine.js';
 import { SessionKeeper } from './bench/recording.js';
 import { SessionStore } from './store/store.js';
+import { LoopMonitor } from './util/loop-monitor.js';
 import { CalibrationHistory, calibrationWarnings } from './calibration/history.js';
 import { resolveAtmosphere, type Atmosphere, type AtmosphereInput } from './bench/atmosphere.js';
 import { parseLimits, type Limits } from './interlocks/limits.js';
@@ -38,6 +39,8 @@ import { sessionsApi } from './http/sessions-api.js';
 import type { PredictFn, RunnerOptions } from './sequence/index.js';
 
 export const DEFAULT_HTTP_PORT = 8470;
+/** A heartbeating controller silent this long while the motor may turn is taken as lost (ms). */
+export const CONTROLLER_SILENCE_MS = 4000;
 /** How often sample batches go out to dashboards. */
 export const BATCH_INTERVAL_MS = 50;
 const HISTORY_CAPACITY = 200_000;
@@ -63,6 +66,8 @@ export interface DaemonOptions {
   link?: Partial<Omit<LinkOptions, 'transport'>>;
   /** The mounted rig (validated), for the prediction and the limits. Defaults to the virtual bench's rig. */
   rig?: RigSpec | null;
+  /** Size cap of the session database (tests of a full disk); none by default. */
+  maxDatabaseBytes?: number;
   /** The air the bench runs in (standard sea level by default). */
   atmosphere?: AtmosphereInput;
   /** Limit overrides on top of the rig's `limits` section (validated the same way). */
@@ -197,7 +202,7 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
   });
   let prediction: LivePrediction | null = null;
   // Sessions are recorded when a data folder is given (the CLI always gives one; tests mostly do not).
-  const store = opts.dataDir ? SessionStore.open(opts.dataDir, { busyTimeoutMs: 20 }) : null;
+  const store = opts.dataDir ? SessionStore.open(opts.dataDir, { busyTimeoutMs: 20, ...(opts.maxDatabaseBytes ? { maxDatabaseBytes: opts.maxDatabaseBytes } : {}) }) : null;
   const tell = (event: BenchEvent) => {
     events.push(event);
     hub.broadcast({ type: 'event', event });
@@ -401,6 +406,32 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     if (!closed && (event.level !== 'info' || event.kind === 'state')) log(`[${event.level}] ${event.text}`);
   });
 
+  // A controlling dashboard that sends heartbeats and then falls silent (a frozen tab) while the motor may
+  // turn is treated like a lost one. The browser answers WebSocket protocol pings from its network process
+  // even when the page's JavaScript is stuck, so only the page's own heartbeat tells.
+  const liveness = setInterval(() => {
+    const c = hub.controller;
+    if (!c || !c.heartbeats || Date.now() - c.lastHeardAt < CONTROLLER_SILENCE_MS) return;
+    if (controller.state !== 'armed' && controller.state !== 'running') return;
+    const why = `controlling dashboard silent for ${((Date.now() - c.lastHeardAt) / 1000).toFixed(1)} s`;
+    if (!sequences.cut(why)) controller.stop(why);
+  }, 500);
+  liveness.unref();
+  // A stalled event loop is worth telling: beyond the firmware's heartbeat time-out it has already cut.
+  const loop = new LoopMonitor({ thresholdMs: 100 });
+  let lastStallWarn = 0;
+  loop.on('stall', (st) => {
+    if (Date.now() - lastStallWarn < 5000) return;
+    lastStallWarn = Date.now();
+    tell({
+      t: Date.now(),
+      level: 'warn',
+      kind: 'loop_stall',
+      text: `the daemon stalled for ${Math.round(st.stall_ms)} ms (the firmware cuts after ${link.identity?.heartbeatTimeoutMs ?? 300} ms without a heartbeat)`,
+    });
+  });
+  loop.start();
+
   const flush = setInterval(() => {
     if (pending.t.length === 0) return;
     const batch = pending;
@@ -468,6 +499,8 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
       if (sent) await Promise.race([sent.acked.catch(() => {}), new Promise((r) => setTimeout(r, 300))]);
       clearInterval(flush);
       clearInterval(linkTick);
+      clearInterval(liveness);
+      loop.stop();
       interlocks.close();
       // A session still open when the daemon is stopped was ended by the operator.
       sessions?.finish('aborted');

@@ -57,7 +57,7 @@ function replies(c: TestClient): Extract<ServerMessage, { type: 'reply' }>[] {
 }
 
 describe('message floods', () => {
-  it('a burst of commands gets rate-limit refusals, and stop still goes through at once', async () => {
+  it('a burst of commands is dropped past the budget, and stop still goes through at once', async () => {
     const c = await armedController(0.2);
     const thrBefore = written.filter((w) => w.tag === 'THR').length;
     // 300 throttle messages in one burst, far over the per-client budget.
@@ -67,9 +67,12 @@ describe('message floods', () => {
     expect(replies(c).find((r) => r.id === 99_999)).toMatchObject({ ok: true });
     await waitFor(() => d.sim!.state.output === 0, 5000, 'output cut');
     expect(d.sim!.state.fault).toBe('estop');
-    await c.until(() => replies(c).filter((r) => r.id >= 10_000 && r.id < 10_300).length === 300, 10_000, 'every flood message answered');
-    const refused = replies(c).filter((r) => r.id >= 10_000 && r.id < 10_300 && !r.ok && /rate limit/.test(r.error));
-    expect(refused.length).toBeGreaterThan(200);
+    // Past its budget the flood is dropped unread and unanswered (answering it would double it): a message
+    // after the flood, once the budget refills, is answered again.
+    await new Promise((r) => setTimeout(r, 1500));
+    const answered = replies(c).filter((r) => r.id >= 10_000 && r.id < 10_300);
+    expect(answered.length).toBeLessThan(100);
+    expect(await c.command({ type: 'ping' })).toEqual({ ok: true });
     // Only the budget's worth of throttle lines reached the device, never the flood.
     expect(written.filter((w) => w.tag === 'THR').length - thrBefore).toBeLessThan(100);
   });

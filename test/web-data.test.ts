@@ -514,8 +514,11 @@ describe('BenchClient', () => {
     sock().open();
     sock().receive(snapshot());
     vi.advanceTimersByTime(2000);
-    expect(sock().sent.map((m) => m.type)).toEqual(['ping']);
-    sock().receive({ type: 'reply', id: sock().sent[0].id as number, ok: true });
+    // the page's heartbeat: a ping every second
+    const types = sock().sent.map((m) => m.type);
+    expect(types.length).toBeGreaterThanOrEqual(1);
+    expect(types.every((t) => t === 'ping')).toBe(true);
+    sock().receive({ type: 'reply', id: sock().sent[sock().sent.length - 1].id as number, ok: true });
     vi.advanceTimersByTime(5000); // heard at 2 s, so not stale yet at 7 s
     expect(client.connection.state).toBe('live');
     vi.advanceTimersByTime(1000);

@@ -207,6 +207,10 @@ export type ServerMessage =
   | { type: 'extras'; extras: Record<string, unknown> }
   | { type: 'run'; run: SequenceRunView }
   | { type: 'run_point'; run: number; point: RunPointView }
+  /** This dashboard's role changed (a takeover). */
+  | { type: 'role'; role: Role }
+  /** To the controlling dashboard: another dashboard asks for control; answer with takeover_answer. */
+  | { type: 'takeover_asked'; request: number; from: number }
   | { type: 'reply'; id: number; ok: true; data?: unknown }
   /** `issues`: field-level problems, when a sequence was refused. */
   | { type: 'reply'; id: number; ok: false; error: string; issues?: SequenceIssueView[] };
@@ -225,7 +229,11 @@ export type ClientMessage =
   | { type: 'sequence_start'; id?: number; source: SequenceSource; title?: string; tags?: string[]; check_only?: boolean }
   | { type: 'sequence_pause'; id?: number }
   | { type: 'sequence_resume'; id?: number }
-  | { type: 'sequence_abort'; id?: number };
+  | { type: 'sequence_abort'; id?: number }
+  /** A viewer asks for control: granted at once when no dashboard has it, else the controller is asked. */
+  | { type: 'takeover_request'; id?: number }
+  /** The controller's answer to takeover_asked. */
+  | { type: 'takeover_answer'; id?: number; request: number; allow: boolean };
 
 export type ClientMessageType = ClientMessage['type'];
 
@@ -264,6 +272,8 @@ const CLIENT_FIELDS: Record<ClientMessageType, readonly string[]> = {
   sequence_pause: [],
   sequence_resume: [],
   sequence_abort: [],
+  takeover_request: [],
+  takeover_answer: ['request', 'allow'],
 };
 
 const SOURCE_FIELDS: Record<SequenceSource['kind'], { required: readonly string[]; optional: readonly string[] }> = {
@@ -329,6 +339,10 @@ export function parseClientMessage(text: string): ParseResult<ClientMessage> {
     const v = obj.value;
     if (typeof v !== 'number' || !Number.isFinite(v)) return { ok: false, error: 'throttle.value must be a finite number' };
     if (v < 0 || v > 1) return { ok: false, error: `throttle.value ${v} outside 0..1` };
+  }
+  if (type === 'takeover_answer') {
+    if (!(Number.isSafeInteger(obj.request) && (obj.request as number) >= 0)) return { ok: false, error: 'takeover_answer.request must be a non-negative integer' };
+    if (typeof obj.allow !== 'boolean') return { ok: false, error: 'takeover_answer.allow must be true or false' };
   }
   if (type === 'checklist') {
     const items = obj.items;

@@ -11,6 +11,9 @@ import { CommandRefused, type DeviceLink } from '../link/link.js';
 import { TypedEmitter } from '../util/emitter.js';
 import { mayTurn, nextState, type BenchInput, type Transition } from './state.js';
 
+/** A new stop within this long of an unacknowledged one is not written again (ms). */
+export const STOP_COALESCE_MS = 50;
+
 /** Period of throttle ramp steps (ms). */
 export const RAMP_TICK_MS = 20;
 
@@ -48,6 +51,7 @@ export class BenchController extends TypedEmitter<ControllerEvents> {
   private throttleCommand = 0;
   /** Bumped by every new throttle request, stop and trip: a running ramp sees it and gives up. */
   private rampId = 0;
+  private lastStop: { at: number; acked: boolean } | null = null;
   /** Fastest upward throttle change, fraction per second (the throttle_slew limit). Downward is never limited. */
   maxSlewPerS = 1.0;
 
@@ -144,7 +148,19 @@ export class BenchController extends TypedEmitter<ControllerEvents> {
    * as wanted; with no device connected there is nothing to cut and it says so.
    */
   stop(source: string): boolean {
+    // A flood of stops (a stuck key, a hostile page) must not flood the serial line: while the last STOP is
+    // fresh and unacknowledged, another one changes nothing.
+    const now = performance.now();
+    if (this.lastStop && !this.lastStop.acked && now - this.lastStop.at < STOP_COALESCE_MS) return true;
     const sent = this.link.sendUrgent('estop');
+    if (sent) {
+      const rec = { at: now, acked: false };
+      this.lastStop = rec;
+      sent.acked.then(
+        () => (rec.acked = true),
+        () => {},
+      );
+    }
     this.throttleCommand = 0;
     this.rampId++;
     this.log('warn', 'stop', sent ? `emergency stop from ${source}: cut sent` : `emergency stop from ${source}: no device connected`);

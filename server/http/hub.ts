@@ -20,7 +20,23 @@ export interface Client {
   droppedBatches: number;
   tokens: number;
   lastRefill: number;
+  /** Host time (ms) of the last message from this client. */
+  lastHeardAt: number;
+  /** True once the client has sent a heartbeat ping: only such a dashboard can be judged silent. */
+  heartbeats: boolean;
 }
+
+/** A pending takeover: who asked, and until when the controller may answer. */
+interface Takeover {
+  request: number;
+  from: number;
+  /** The asker's message id, answered when the takeover is decided. */
+  replyId: number;
+  expires: NodeJS.Timeout;
+}
+
+/** How long the controller has to answer a takeover request before it is refused. */
+export const TAKEOVER_ANSWER_MS = 15_000;
 
 export interface HubHandlers {
   /**
@@ -49,7 +65,7 @@ export class Hub {
 
   add(ws: WebSocket): Client {
     const role: Role = this.controllerId === null ? 'controller' : 'viewer';
-    const client: Client = { id: this.nextId++, ws, role, droppedBatches: 0, tokens: CLIENT_RATE_PER_S, lastRefill: Date.now() };
+    const client: Client = { id: this.nextId++, ws, role, droppedBatches: 0, tokens: CLIENT_RATE_PER_S, lastRefill: Date.now(), lastHeardAt: Date.now(), heartbeats: false };
     this.clients.set(client.id, client);
     if (role === 'controller') this.controllerId = client.id;
     ws.on('message', (data, isBinary) => this.onRaw(client, isBinary ? null : data.toString()));
@@ -93,20 +109,32 @@ export class Hub {
 
   private onRaw(client: Client, text: string | null): void {
     const now = Date.now();
+    client.lastHeardAt = now;
     client.tokens = Math.min(CLIENT_RATE_PER_S, client.tokens + ((now - client.lastRefill) / 1000) * CLIENT_RATE_PER_S);
     client.lastRefill = now;
+    // Over its budget, a client's messages are dropped unread and unanswered (answering a flood doubles it),
+    // except a short message that is a stop: that is parsed and carried out whatever the budget.
+    if (client.tokens < 1 && !(text !== null && text.length < 200 && text.includes('"stop"'))) return;
     if (text === null) {
+      client.tokens -= 1;
       this.send(client, { type: 'reply', id: -1, ok: false, error: 'binary messages are not accepted' });
       return;
     }
     const parsed = parseClientMessage(text);
     if (!parsed.ok) {
+      client.tokens -= 1;
       // Answer to the message's own id when it has a readable one, so the sender can tell which was refused.
       this.send(client, { type: 'reply', id: idOf(text), ok: false, error: parsed.error });
       return;
     }
     const msg = parsed.value;
     const id = msg.id ?? -1;
+    if (msg.type === 'ping') client.heartbeats = true;
+    if (msg.type === 'takeover_request' || msg.type === 'takeover_answer') {
+      client.tokens -= 1;
+      this.takeover(client, msg, id);
+      return;
+    }
     // Stop is never rate-limited and never refused for role: anyone watching may stop the motor.
     if (msg.type !== 'stop') {
       if (client.tokens < 1) {
@@ -128,10 +156,77 @@ export class Hub {
     );
   }
 
+  private pendingTakeover: Takeover | null = null;
+  private nextRequest = 1;
+
+  /**
+   * One controller at a time. A viewer's request is granted at once when nobody controls the bench; otherwise
+   * the controller is asked and must allow it (or it expires). The old controller becomes a viewer; the
+   * motor is not touched by a handover.
+   */
+  private takeover(client: Client, msg: Extract<ClientMessage, { type: 'takeover_request' | 'takeover_answer' }>, id: number): void {
+    if (msg.type === 'takeover_request') {
+      if (client.role === 'controller') return this.send(client, { type: 'reply', id, ok: true, data: { role: 'controller' } });
+      const current = this.controller;
+      if (!current) {
+        this.setRole(client, 'controller');
+        return this.send(client, { type: 'reply', id, ok: true, data: { role: 'controller' } });
+      }
+      if (this.pendingTakeover) return this.send(client, { type: 'reply', id, ok: false, error: 'another dashboard is already asking for control' });
+      const request = this.nextRequest++;
+      this.pendingTakeover = {
+        request,
+        from: client.id,
+        replyId: id,
+        expires: setTimeout(() => {
+          if (this.pendingTakeover?.request !== request) return;
+          this.pendingTakeover = null;
+          const asker = this.clients.get(client.id);
+          if (asker) this.send(asker, { type: 'reply', id, ok: false, error: 'the controlling dashboard did not answer' });
+        }, TAKEOVER_ANSWER_MS),
+      };
+      this.pendingTakeover.expires.unref();
+      this.send(current, { type: 'takeover_asked', request, from: client.id });
+      return;
+    }
+    // takeover_answer
+    const p = this.pendingTakeover;
+    if (client.role !== 'controller') return this.send(client, { type: 'reply', id, ok: false, error: 'only the controlling dashboard answers a takeover request' });
+    if (!p || p.request !== msg.request) return this.send(client, { type: 'reply', id, ok: false, error: 'no such takeover request (expired or answered)' });
+    clearTimeout(p.expires);
+    this.pendingTakeover = null;
+    const asker = this.clients.get(p.from);
+    const replyId = p.replyId;
+    this.send(client, { type: 'reply', id, ok: true });
+    if (!asker) return;
+    if (!msg.allow) return this.send(asker, { type: 'reply', id: replyId, ok: false, error: 'the controlling dashboard declined' });
+    this.setRole(client, 'viewer');
+    this.setRole(asker, 'controller');
+    this.send(asker, { type: 'reply', id: replyId, ok: true, data: { role: 'controller' } });
+  }
+
+  private setRole(c: Client, role: Role): void {
+    c.role = role;
+    if (role === 'controller') this.controllerId = c.id;
+    else if (this.controllerId === c.id) this.controllerId = null;
+    this.send(c, { type: 'role', role });
+  }
+
   private remove(client: Client): void {
     if (!this.clients.delete(client.id)) return;
+    const p = this.pendingTakeover;
+    if (p && (p.from === client.id || this.controllerId === client.id)) {
+      clearTimeout(p.expires);
+      this.pendingTakeover = null;
+    }
     if (this.controllerId === client.id) this.controllerId = null;
     this.h.onDisconnect(client);
+    // The controller is gone while someone was asking for control: its absence is the answer.
+    const asker = p && p.from !== client.id ? this.clients.get(p.from) : undefined;
+    if (asker && this.controllerId === null) {
+      this.setRole(asker, 'controller');
+      this.send(asker, { type: 'reply', id: p!.replyId, ok: true, data: { role: 'controller' } });
+    }
   }
 }
 

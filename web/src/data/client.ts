@@ -66,6 +66,9 @@ export interface BenchClientOptions {
   now?: () => number;
 }
 
+/** How often the page says it is alive (ms); the daemon treats 4 s of silence from a controller as a frozen page. */
+const HEARTBEAT_MS = 1000;
+
 export class BenchClient {
   readonly ring: SampleRing;
   private _conn: ConnectionView;
@@ -309,7 +312,9 @@ export class BenchClient {
       this._scheduleRetry();
       return;
     }
-    if (silent >= this._o.pingAfterMs && this._now() - this._lastPing >= this._o.pingAfterMs) {
+    // A ping every second is the page's heartbeat: a controlling page that stops sending it while the motor
+    // may turn (a frozen tab) is stopped by the daemon. It also keeps the stale check above honest.
+    if (this._now() - this._lastPing >= Math.min(this._o.pingAfterMs, HEARTBEAT_MS)) {
       this._lastPing = this._now();
       void this._send({ type: 'ping' }, true);
     }
