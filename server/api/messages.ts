@@ -197,6 +197,107 @@ export interface SequenceIssueView {
   rule: string;
 }
 
+// ---------------------------------------------------------------- calibration from the dashboard
+
+/** What a dashboard can calibrate (CalibrationWorkflows in server/calibration/workflows.ts does the work). */
+export type CalibrationAction = 'tare' | 'span' | 'current_zero' | 'current_reference' | 'voltage_reference' | 'rpm_pulses';
+
+/**
+ * A calibration job's lifecycle (one transition function, server/bench/calibration-service.ts). 'placing'
+ * happens only in a span: the daemon waits for the operator to hang (or take off) the load it names and
+ * confirm with calibration_span_placed. 'applied' is the only end in which anything became the calibration
+ * in force; 'refused' (implausible, with the reason), 'cancelled' and 'failed' applied nothing.
+ */
+export type CalibrationJobState = 'placing' | 'measuring' | 'applied' | 'refused' | 'cancelled' | 'failed';
+
+/** One averaged raw reading a job took. */
+export interface CalibrationReadingView {
+  /** Span: the load on the cell, kg (0 = empty); null for the other actions. */
+  load_kg: number | null;
+  /** Mean raw reading over the window, in the channel's unit, before the host calibration. */
+  raw: number;
+  std: number;
+  n: number;
+  /** What it should read: load x g0 (N) for a span, the operator's meter for a reference, 0 for a zero. */
+  reference: number;
+}
+
+/** A straight-line fit of reference against raw (span), shown whether it was applied or refused. */
+export interface CalibrationFitView {
+  scale: number;
+  offset: number;
+  /** Per reading, reference minus fit, in the channel's unit (N for a span). */
+  residuals: number[];
+  /** Largest |residual| over the span of the references, percent; null with two readings (nothing to judge). */
+  non_linearity_pct: number | null;
+  rms: number;
+  r2: number;
+}
+
+/** One entry of the calibration history (server/calibration/history.ts CalibrationEntry, as JSON). */
+export interface CalibrationEntryView {
+  /** ISO date-time. */
+  at: string;
+  channel: 'thrust' | 'voltage' | 'current' | 'torque' | 'rpm';
+  kind: 'tare' | 'span' | 'zero' | 'scale' | 'pulses_per_rev';
+  /** value = scale x raw + offset, in force from this entry on. */
+  result: { scale: number; offset: number };
+  points?: { raw: number; reference: number }[];
+  residuals?: number[];
+  nonLinearityPct?: number;
+  temperatureC?: number | null;
+  note?: string;
+}
+
+export interface CalibrationJobView {
+  /** Counter of jobs in this daemon session, from 1. */
+  job: number;
+  action: CalibrationAction;
+  state: CalibrationJobState;
+  /** For people: the instruction while live (what to hang, what is being measured), then what happened. */
+  reason: string;
+  /** Span: every load in order, the empty cell first (kg); [] for the other actions. */
+  loads_kg: number[];
+  /** Span: index into loads_kg of the load asked for or being measured. */
+  step: number;
+  readings: CalibrationReadingView[];
+  fit: CalibrationFitView | null;
+  /** The history entry made, when applied. */
+  entry: CalibrationEntryView | null;
+  live: boolean;
+  started_at: number;
+  ended_at: number | null;
+}
+
+/** snapshot.extras.calibration, and an extras message whenever it changes. */
+export interface CalibrationStatusView {
+  /** Null when the dashboard can calibrate this daemon; otherwise why it cannot (no data folder, unreadable history). */
+  unavailable: string | null;
+  /** The live job, or the last one finished, or null. */
+  job: CalibrationJobView | null;
+  /** The calibration in force, per channel. */
+  in_force: Record<CalibrationEntryView['channel'], { scale: number; offset: number }>;
+  /** Missing, old, or made at another temperature (calibrationWarnings); re-checked as temperature readings arrive. */
+  warnings: string[];
+  /** Latest temperature reading the warnings were checked with, degC, or null. */
+  temperature_C: number | null;
+}
+
+/** snapshot.extras.calibration_history, and an extras message after every new entry. */
+export interface CalibrationHistoryView {
+  /** Entries in the history file. */
+  total: number;
+  /** The latest CALIBRATION_HISTORY_SHOWN of them, oldest first. */
+  entries: CalibrationEntryView[];
+}
+
+export const CALIBRATION_HISTORY_SHOWN = 100;
+/** Span masses per job, at most, and the largest mass (kg), as the workflow accepts them. */
+export const MAX_SPAN_MASSES = 8;
+export const MAX_SPAN_MASS_KG = 100;
+/** Largest reference reading accepted per channel (V, A): above that it is a typo, not a bench meter. */
+export const MAX_REFERENCE: Record<'current' | 'voltage', number> = { voltage: 100, current: 200 };
+
 export type ServerMessage =
   | Snapshot
   | { type: 'samples'; batch: SampleBatch }
@@ -230,6 +331,18 @@ export type ClientMessage =
   | { type: 'sequence_pause'; id?: number }
   | { type: 'sequence_resume'; id?: number }
   | { type: 'sequence_abort'; id?: number }
+  /** Calibration jobs: each replies at once with the job's view; the job then moves on in extras.calibration. */
+  | { type: 'calibration_tare'; id?: number }
+  /** Known masses, kg (the empty cell is measured first whether listed or not). */
+  | { type: 'calibration_span_start'; id?: number; masses_kg: number[] }
+  /** The operator has placed the load of `step` (CalibrationJobView.step): measure it. */
+  | { type: 'calibration_span_placed'; id?: number; step: number }
+  | { type: 'calibration_cancel'; id?: number }
+  | { type: 'calibration_current_zero'; id?: number }
+  /** The reference meter's reading now (A or V), typed by the operator. */
+  | { type: 'calibration_reference'; id?: number; channel: 'current' | 'voltage'; reading: number }
+  /** rpm pickup: pulses it really gives per revolution, and what the firmware is set for. */
+  | { type: 'calibration_rpm_pulses'; id?: number; actual: number; firmware: number }
   /** A viewer asks for control: granted at once when no dashboard has it, else the controller is asked. */
   | { type: 'takeover_request'; id?: number }
   /** The controller's answer to takeover_asked. */
@@ -257,6 +370,13 @@ export const CONTROL_TYPES: ReadonlySet<ClientMessageType> = new Set([
   'sequence_pause',
   'sequence_resume',
   'sequence_abort',
+  'calibration_tare',
+  'calibration_span_start',
+  'calibration_span_placed',
+  'calibration_cancel',
+  'calibration_current_zero',
+  'calibration_reference',
+  'calibration_rpm_pulses',
 ]);
 
 const CLIENT_FIELDS: Record<ClientMessageType, readonly string[]> = {
@@ -272,6 +392,13 @@ const CLIENT_FIELDS: Record<ClientMessageType, readonly string[]> = {
   sequence_pause: [],
   sequence_resume: [],
   sequence_abort: [],
+  calibration_tare: [],
+  calibration_span_start: ['masses_kg'],
+  calibration_span_placed: ['step'],
+  calibration_cancel: [],
+  calibration_current_zero: [],
+  calibration_reference: ['channel', 'reading'],
+  calibration_rpm_pulses: ['actual', 'firmware'],
   takeover_request: [],
   takeover_answer: ['request', 'allow'],
 };
@@ -366,7 +493,45 @@ export function parseClientMessage(text: string): ParseResult<ClientMessage> {
     }
     if (obj.check_only !== undefined && typeof obj.check_only !== 'boolean') return { ok: false, error: 'sequence_start.check_only must be true or false' };
   }
+  if (type.startsWith('calibration_')) {
+    const bad = checkCalibration(type, obj);
+    if (bad) return { ok: false, error: bad };
+  }
   return { ok: true, value: obj as unknown as ClientMessage };
+}
+
+/** Field checks of the calibration messages (every field is required). */
+function checkCalibration(type: string, obj: Record<string, unknown>): string | null {
+  const finite = (v: unknown): v is number => typeof v === 'number' && Number.isFinite(v);
+  const whole = (v: unknown, lo: number, hi: number): boolean => Number.isSafeInteger(v) && (v as number) >= lo && (v as number) <= hi;
+  switch (type) {
+    case 'calibration_span_start': {
+      const m = obj.masses_kg;
+      if (!Array.isArray(m) || m.length < 1 || m.length > MAX_SPAN_MASSES) return `calibration_span_start.masses_kg must be a list of 1 to ${MAX_SPAN_MASSES} masses in kg`;
+      for (const x of m) {
+        if (!finite(x)) return 'calibration_span_start.masses_kg: every mass must be a finite number (kg)';
+        if (x < 0 || x > MAX_SPAN_MASS_KG) return `calibration_span_start.masses_kg: ${x} kg outside 0..${MAX_SPAN_MASS_KG}`;
+      }
+      if (new Set(m).size !== m.length) return 'calibration_span_start.masses_kg: a mass is listed twice';
+      if (!m.some((x) => (x as number) > 0)) return 'calibration_span_start.masses_kg: needs at least one mass above 0 kg';
+      return null;
+    }
+    case 'calibration_span_placed':
+      return whole(obj.step, 0, MAX_SPAN_MASSES) ? null : `calibration_span_placed.step must be a whole number 0..${MAX_SPAN_MASSES}`;
+    case 'calibration_reference': {
+      const ch = obj.channel;
+      if (ch !== 'current' && ch !== 'voltage') return 'calibration_reference.channel must be current or voltage';
+      const v = obj.reading;
+      if (!finite(v)) return 'calibration_reference.reading must be a finite number';
+      if (v <= 0 || v > MAX_REFERENCE[ch]) return `calibration_reference.reading ${v} outside 0..${MAX_REFERENCE[ch]} ${ch === 'current' ? 'A' : 'V'} (above zero)`;
+      return null;
+    }
+    case 'calibration_rpm_pulses':
+      for (const k of ['actual', 'firmware'] as const) if (!whole(obj[k], 1, 64)) return `calibration_rpm_pulses.${k} must be a whole number 1..64`;
+      return null;
+    default:
+      return null;
+  }
 }
 
 export function emptyBatch(): SampleBatch {
