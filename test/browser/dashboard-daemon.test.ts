@@ -102,7 +102,15 @@ describe('dashboard on the real daemon', () => {
       await viewer.page.screenshot({ path: join(ARTIFACTS_DIR, 'dashboard-daemon-viewer.png') });
       await ctl.page.locator('body').press('Escape');
       await eventually(async () => d.sim!.state.output, (o) => o === 0, 'device output cut by Escape');
+      // the viewer asks for control; the controlling dashboard hands over; the roles swap
+      await viewer.page.getByTestId('request-control').click();
+      await ctl.page.getByTestId('takeover-asked').waitFor({ state: 'visible' });
+      await ctl.page.screenshot({ path: join(ARTIFACTS_DIR, 'dashboard-daemon-takeover.png') });
+      await ctl.page.getByTestId('takeover-allow').click();
+      await viewer.page.getByTestId('viewer-note').waitFor({ state: 'detached' });
+      await ctl.page.getByTestId('viewer-note').waitFor({ state: 'visible' });
       expect(ctl.errors).toEqual([]);
+      expect(viewer.errors).toEqual([]);
     } finally {
       await ctl.context.close();
       await viewer.context.close();

@@ -30,7 +30,7 @@ export class DbBenchControls extends LitElement {
     `,
   ];
 
-  private readonly _dash = new DashboardController(this, ['connection', 'snapshot', 'bench', 'command', 'extras', 'run']);
+  private readonly _dash = new DashboardController(this, ['connection', 'snapshot', 'bench', 'command', 'extras', 'run', 'role']);
 
   /** Arm, or first the checklist when this daemon session has not had it (the daemon would refuse). */
   private _arm(): void {
@@ -72,8 +72,20 @@ export class DbBenchControls extends LitElement {
       <h2>Controls</h2>
       ${c?.connection.state === 'live' && c.role === 'viewer'
         ? html`<p class="note" data-testid="viewer-note">
-            You are a viewer: another dashboard holds the controls. The stop button still works.
-          </p>`
+              You are a viewer: another dashboard holds the controls. The stop button still works.
+            </p>
+            <div class="buttons">
+              <button data-testid="request-control" @click=${() => void c.requestTakeover()}>Ask for control</button>
+            </div>`
+        : ''}
+      ${c?.takeoverAsked
+        ? html`<div class="note" role="alertdialog" data-testid="takeover-asked">
+            Another dashboard asks to take control of the bench. The motor is not touched by a handover.
+            <div class="buttons">
+              <button data-testid="takeover-allow" @click=${() => void c.answerTakeover(true)}>Hand over</button>
+              <button data-testid="takeover-deny" @click=${() => void c.answerTakeover(false)}>Keep control</button>
+            </div>
+          </div>`
         : ''}
       ${c?.connection.state !== 'live' ? html`<p class="note">Controls wait for a live connection.</p>` : ''}
       <div class="buttons">

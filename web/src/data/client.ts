@@ -35,7 +35,7 @@ export type SocketFactory = (url: string) => SocketLike;
 /** WebSocket.OPEN, spelled out so this module needs no DOM globals. */
 const OPEN = 1;
 
-export type ClientChange = 'connection' | 'snapshot' | 'samples' | 'bench' | 'link' | 'identity' | 'events' | 'extras' | 'command' | 'run';
+export type ClientChange = 'connection' | 'snapshot' | 'samples' | 'bench' | 'link' | 'identity' | 'events' | 'extras' | 'command' | 'run' | 'role';
 export type ClientListener = (change: ClientChange) => void;
 
 /** `data`: what the daemon answered with; `issues`: field-level problems of a refused sequence. */
@@ -73,6 +73,8 @@ export class BenchClient {
   readonly ring: SampleRing;
   private _conn: ConnectionView;
   private _role: Role = 'viewer';
+  /** A takeover request this (controlling) dashboard has been asked to answer, or null. */
+  private _takeoverAsked: { request: number; from: number } | null = null;
   private _bench: BenchView | null = null;
   private _link: LinkView | null = null;
   private _identity: DeviceIdentity | null = null;
@@ -112,6 +114,24 @@ export class BenchClient {
   get connection(): ConnectionView {
     return this._conn;
   }
+  /** Another dashboard asks this one for control (answer with answerTakeover). */
+  get takeoverAsked(): { request: number; from: number } | null {
+    return this._takeoverAsked;
+  }
+
+  /** Asks the controlling dashboard for control (granted at once when nobody holds it). */
+  requestTakeover(): Promise<CommandResult> {
+    return this.send({ type: 'takeover_request' } as Command);
+  }
+
+  answerTakeover(allow: boolean): Promise<CommandResult> {
+    const t = this._takeoverAsked;
+    this._takeoverAsked = null;
+    this._emit('role');
+    if (!t) return Promise.resolve({ ok: false, error: 'no takeover request to answer' });
+    return this.send({ type: 'takeover_answer', request: t.request, allow } as Command);
+  }
+
   get role(): Role {
     return this._role;
   }
@@ -177,7 +197,8 @@ export class BenchClient {
   }
 
   send(cmd: Command): Promise<CommandResult> {
-    return this._send(cmd, cmd.type === 'stop' || cmd.type === 'ping');
+    // Stop, ping and the takeover messages go whatever this dashboard's role (the daemon checks the rest).
+    return this._send(cmd, cmd.type === 'stop' || cmd.type === 'ping' || cmd.type === 'takeover_request' || cmd.type === 'takeover_answer');
   }
 
   private _send(cmd: Command, anyState: boolean): Promise<CommandResult> {
@@ -353,6 +374,15 @@ export class BenchClient {
       case 'bench':
         this._bench = msg.bench;
         this._emit('bench');
+        return;
+      case 'role':
+        this._role = msg.role === 'controller' ? 'controller' : 'viewer';
+        if (this._role === 'viewer') this._takeoverAsked = null;
+        this._emit('role');
+        return;
+      case 'takeover_asked':
+        this._takeoverAsked = { request: msg.request, from: msg.from };
+        this._emit('role');
         return;
       case 'link':
         this._link = msg.link;
