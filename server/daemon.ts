@@ -35,6 +35,7 @@ import { parseLimits, type Limits } from './interlocks/limits.js';
 import type { RigSpec } from './model/rig-types.js';
 import { buildRigModel, predictAtThrottle, predictCurve, rigGeometry, type RigModel } from './model/index.js';
 import { SequenceService, loadExamples } from './bench/sequence-service.js';
+import { CalibrationService, type CalibrationServiceDeps } from './bench/calibration-service.js';
 import { sessionsApi } from './http/sessions-api.js';
 import type { PredictFn, RunnerOptions } from './sequence/index.js';
 
@@ -76,6 +77,8 @@ export interface DaemonOptions {
   examplesDir?: string;
   /** Runner overrides for sequences started from a dashboard (tests). */
   sequenceRunner?: Partial<RunnerOptions>;
+  /** Measurement windows of calibrations from a dashboard (tests use short ones). */
+  calibrationWorkflow?: CalibrationServiceDeps['workflow'];
   log?: (line: string) => void;
 }
 
@@ -124,6 +127,8 @@ export interface RunningDaemon {
   sessions: SessionKeeper | null;
   /** Sequences started from a dashboard (one at a time). */
   sequences: SequenceService;
+  /** Calibrations from a dashboard (refused without a data folder). */
+  calibration: CalibrationService;
   /** The in-process virtual bench, when that is the device (tests and fault injection reach it here). */
   sim: VirtualBench | null;
   /** Resolves once the first connection attempt has finished (ready or failed). */
@@ -211,14 +216,17 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
   const pipeline = new TelemetryPipeline();
   // The calibration in force: the latest of the data folder's history (made with `ductbench calibrate`).
   let calibrationWarningsText: string[] = [];
+  let calibrationHistory: CalibrationHistory | null = null;
+  let calibrationUnavailable = 'this daemon keeps no calibration history (started without a data folder): calibrate with a data folder (--data-dir)';
   if (opts.dataDir) {
     try {
-      const history = new CalibrationHistory(opts.dataDir);
-      pipeline.calibration = history.current();
-      calibrationWarningsText = calibrationWarnings(history, new Date(), null);
+      calibrationHistory = new CalibrationHistory(opts.dataDir);
+      pipeline.calibration = calibrationHistory.current();
+      calibrationWarningsText = calibrationWarnings(calibrationHistory, new Date(), null);
     } catch (err) {
       // A broken history must not start the bench on a calibration nobody chose: say so, run uncalibrated.
       calibrationWarningsText = [`calibration history unreadable, running uncalibrated: ${(err as Error).message}`];
+      calibrationUnavailable = `the calibration history is unreadable (${(err as Error).message}); nothing is written over it`;
     }
   }
   const sessions = store
@@ -275,6 +283,7 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     atmosphere: { density_kg_m3: atmosphere.density_kg_m3, temperature_K: atmosphere.temperature_K, source: atmosphere.source },
     checklist: checklistView(),
     sequences: sequences.examples(),
+    ...calibration.extras(),
   });
   const history = new SampleRing(HISTORY_CAPACITY);
   const events: BenchEvent[] = [];
@@ -298,6 +307,26 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     },
     onMessage: (client, msg) => handleClient(client, msg),
   });
+
+  // Calibration results are in force at once: the pipeline calibrates every following sample, and the
+  // session context reads pipeline.calibration for every new session.
+  const calibration = new CalibrationService({
+    link,
+    controller,
+    history: calibrationHistory,
+    unavailable: calibrationHistory ? null : calibrationUnavailable,
+    setCalibration: (c) => {
+      pipeline.calibration = c;
+    },
+    onSample: (fn) => {
+      sampleListeners.add(fn);
+      return () => sampleListeners.delete(fn);
+    },
+    tell: (e) => tell(e),
+    ...(opts.calibrationWorkflow ? { workflow: opts.calibrationWorkflow } : {}),
+  });
+  calibration.on('status', (v) => hub.broadcast({ type: 'extras', extras: { calibration: v } }));
+  calibration.on('history', (v) => hub.broadcast({ type: 'extras', extras: { calibration_history: v } }));
 
   function snapshot(client: Client): Snapshot {
     return {
@@ -330,11 +359,13 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
       }
       case 'arm':
         requireChecklist('arm');
+        calibration.requireIdle('arm');
         if (sequences.live) throw new ControlError('a sequence is running: it arms and disarms the bench itself');
         return controller.arm();
       case 'sequence_start': {
         requireChecklist('sequence');
         if (msg.check_only) return sequences.check(msg.source);
+        calibration.requireIdle('sequence');
         return sequences.start({ source: msg.source, ...(msg.title !== undefined ? { title: msg.title } : {}), ...(msg.tags !== undefined ? { tags: msg.tags } : {}) });
       }
       case 'sequence_pause':
@@ -350,7 +381,17 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
       case 'clear':
         return controller.acknowledge();
       case 'tare':
-        return controller.tare();
+        // Through the calibration history when there is one: a firmware tare also resets the host's thrust
+        // offset, which a span made before it would otherwise apply twice.
+        return calibration.available ? calibration.handle({ type: 'calibration_tare' }).then(() => undefined) : controller.tare();
+      case 'calibration_tare':
+      case 'calibration_span_start':
+      case 'calibration_span_placed':
+      case 'calibration_cancel':
+      case 'calibration_current_zero':
+      case 'calibration_reference':
+      case 'calibration_rpm_pulses':
+        return calibration.handle(msg);
       case 'ping':
         return;
       default:
@@ -484,6 +525,7 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     sim,
     sessions,
     sequences,
+    calibration,
     firstConnect,
     onSample(fn) {
       sampleListeners.add(fn);
@@ -494,6 +536,7 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
       closed = true;
       // A run in progress is cut through its runner (STOP first) so it ends as aborted.
       sequences.cut('daemon stopping');
+      calibration.close();
       // Cut first. Wait briefly for the device's ACK so the STOP is on the wire before the port closes.
       const sent = link.sendUrgent('estop');
       if (sent) await Promise.race([sent.acked.catch(() => {}), new Promise((r) => setTimeout(r, 300))]);
