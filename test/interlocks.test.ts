@@ -206,6 +206,19 @@ describe('tick rules', () => {
     h.tick();
     expect(h.bench.trips[0]?.rule).toBe('stale_telemetry');
   });
+  it('a late tick (the host itself was stalled) defers the stale-telemetry verdict to the next tick', () => {
+    const h = harness({ stale_ms: 250 }, { tickMs: 1000 });
+    h.feed({}, 100);
+    h.tick();
+    h.advance(3000); // the process was stalled for 3 s: this tick is late
+    h.tick();
+    expect(h.bench.trips).toEqual([]);
+    h.advance(10); // the next, punctual tick judges (no line arrived: the device is silent)
+    h.tick();
+    expect(h.bench.trips[0]?.rule).toBe('stale_telemetry');
+    h.il.close();
+  });
+
   it('a silent load cell trips while electrical telemetry continues', () => {
     const h = harness({ thrust_stale_ms: 500 });
     h.feed({}, 100);

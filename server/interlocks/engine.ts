@@ -132,6 +132,8 @@ export class Interlocks extends TypedEmitter<InterlockEvents> {
   private readonly exceededSince = new Map<string, number>();
   private readonly lastWarnAt = new Map<string, number>();
   private timer: NodeJS.Timeout | null = null;
+  private readonly tickMs: number;
+  private lastTickAt: number | null = null;
   private output = 0;
   private outputZeroSince: number | null = null;
   /** When the bench last became energised (armed), so "zero output for a while" counts from the arming. */
@@ -160,6 +162,7 @@ export class Interlocks extends TypedEmitter<InterlockEvents> {
     this.trend = new TrendWindow(opts.limits.vibration_window_s);
     this.cells = opts.cells ?? (opts.limits.cells > 0 ? opts.limits.cells : null);
     const tick = opts.tickMs ?? 25;
+    this.tickMs = tick;
     if (tick > 0) {
       this.timer = setInterval(() => this.tick(), tick);
       this.timer.unref();
@@ -217,6 +220,13 @@ export class Interlocks extends TypedEmitter<InterlockEvents> {
   /** Runs the tick rules (also called by the timer). */
   tick(): void {
     const now = this.now();
+    // A tick that comes late means this process was stalled: the lines that arrived meanwhile are still
+    // waiting in the operating system's buffer, read after the timers. Judging "no telemetry" now would blame
+    // the device for the host's own pause; the next tick, after the reads, judges. (The firmware's heartbeat
+    // time-out covers a host that stays stalled.)
+    const late = this.lastTickAt !== null && this.tickMs > 0 && now - this.lastTickAt > 2 * this.tickMs + 50;
+    this.lastTickAt = now;
+    if (late) return;
     const total = this.opts.badLineCount();
     this.badHistory.push({ t: now, total });
     while (this.badHistory.length > 1 && now - this.badHistory[0].t > 1000) this.badHistory.shift();
