@@ -7,6 +7,8 @@ import {
   API_VERSION,
   type BenchEvent,
   type BenchView,
+  type CalibrationHistoryView,
+  type CalibrationStatusView,
   type ClientMessage,
   type DeviceIdentity,
   type LinkView,
@@ -153,6 +155,16 @@ export class BenchClient {
   /** The sequence run in progress, or the last one this daemon session ran, or null. */
   get run(): RunState | null {
     return this._run;
+  }
+  /** Calibration state from the daemon (extras.calibration), or null from a daemon without it. */
+  get calibration(): CalibrationStatusView | null {
+    const c = this._extras.calibration as CalibrationStatusView | undefined;
+    return c && typeof c === 'object' && Array.isArray(c.warnings) ? c : null;
+  }
+  /** The dated calibration history (extras.calibration_history), or null. */
+  get calibrationHistory(): CalibrationHistoryView | null {
+    const h = this._extras.calibration_history as CalibrationHistoryView | undefined;
+    return h && typeof h === 'object' && Array.isArray(h.entries) ? h : null;
   }
   get lastCommand(): LastCommand | null {
     return this._lastCommand;
