@@ -15,11 +15,12 @@ import './checklist.js';
 import './sequence-panel.js';
 import './sessions-view.js';
 import './compare-view.js';
+import { OPEN_CALIBRATION } from './calibration-panel.js';
 import { NEED_CHECKLIST } from './checklist.js';
 
 /** The three views of the page: the live bench, the recorded sessions, a comparison. */
-export type AppView = 'bench' | 'sessions' | 'compare';
-const VIEW_LABELS: Record<AppView, string> = { bench: 'Live bench', sessions: 'Sessions', compare: 'Compare' };
+export type AppView = 'bench' | 'sessions' | 'compare' | 'calibration';
+const VIEW_LABELS: Record<AppView, string> = { bench: 'Live bench', sessions: 'Sessions', compare: 'Compare', calibration: 'Calibration' };
 
 const LIVE_CHANNELS: SampleChannel[] = ['thrust', 'power', 'voltage', 'current', 'rpm'];
 
@@ -147,6 +148,7 @@ export class DbApp extends LitElement {
     this._compareIds = [];
     this.addEventListener(NEED_CHECKLIST, () => (this._checklist = true));
     this.addEventListener('db-close', () => (this._checklist = false));
+    this.addEventListener(OPEN_CALIBRATION, () => (this._view = 'calibration'));
     this.addEventListener('db-compare', (e) => {
       this._compareIds = (e as CustomEvent<number[]>).detail;
       this._view = 'compare';
@@ -212,6 +214,7 @@ export class DbApp extends LitElement {
       ${this._checklist ? html`<db-checklist></db-checklist>` : ''}
       ${this._view === 'sessions' ? html`<div class="page"><db-sessions-view></db-sessions-view></div>` : ''}
       ${this._view === 'compare' ? html`<div class="page"><db-compare-view .ids=${this._compareIds}></db-compare-view></div>` : ''}
+      ${this._view === 'calibration' ? html`<div class="page"><db-calibration-panel></db-calibration-panel></div>` : ''}
       <div class="layout" ?hidden=${this._view !== 'bench'}>
         <div class="main">
           <db-readouts></db-readouts>
@@ -224,6 +227,7 @@ export class DbApp extends LitElement {
         <div class="side">
           <db-bench-controls></db-bench-controls>
           <db-bench-status></db-bench-status>
+          <db-calibration-warnings></db-calibration-warnings>
           <db-identity-card></db-identity-card>
         </div>
       </div>
