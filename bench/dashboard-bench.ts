@@ -35,6 +35,14 @@ export interface DashboardBench {
   js_heap_used_mb: number;
   js_heap_total_mb: number;
   points_drawn_per_chart: number | null;
+  /**
+   * Redraws a second of each chart while frames were measured ("efficiency" and the live channels), per window:
+   * fewer, cheaper frames must not come from charts that stopped updating.
+   */
+  chart_redraws_per_s_60s: Record<string, number>;
+  chart_redraws_per_s_300s: Record<string, number>;
+  /** Points each chart last handed to uPlot (data-points), 300 s window. */
+  chart_points: Record<string, number>;
 }
 
 const HOUR_ROWS = 3_600_000;
@@ -175,10 +183,16 @@ interface ProbeResult {
   work: number[];
   intervals: number[];
   longTasks: number[];
+  redrawsPerS: Record<string, number>;
 }
 
+/** data-draws and data-points of every chart on the page, keyed "efficiency" or by channel. */
+type ChartCounters = Record<string, { draws: number; points: number }>;
+
+
 export async function benchDashboard(quick: boolean): Promise<DashboardBench> {
-  const webDir = resolve(BENCH_DIR, '../web');
+  // DUCTBENCH_WEB_DIR: another build of the dashboard, so two builds can be measured back to back on one machine.
+  const webDir = process.env.DUCTBENCH_WEB_DIR ? resolve(process.env.DUCTBENCH_WEB_DIR) : resolve(BENCH_DIR, '../web');
   if (!existsSync(join(webDir, 'index.html'))) throw new Error(`no built dashboard in ${webDir} (npm run build)`);
   const mock = new MockDaemon(webDir);
   const url = await mock.start();
@@ -226,7 +240,20 @@ export async function benchDashboard(quick: boolean): Promise<DashboardBench> {
       }
     }, 50);
 
+    const counters = () =>
+      page.evaluate(() => {
+        const root = document.querySelector('db-app')?.shadowRoot ?? document;
+        const out: Record<string, { draws: number; points: number }> = {};
+        for (const el of root.querySelectorAll('db-live-chart, db-efficiency-chart')) {
+          const key = el.tagName === 'DB-EFFICIENCY-CHART' ? 'efficiency' : (el.getAttribute('channel') ?? '?');
+          out[key] = { draws: Number(el.getAttribute('data-draws') ?? 0), points: Number(el.getAttribute('data-points') ?? 0) };
+        }
+        return out;
+      }) as Promise<ChartCounters>;
+
     const measure = async (seconds: number): Promise<ProbeResult> => {
+      const before = await counters();
+      const started = performance.now();
       await page.evaluate(() => {
         const p = (window as unknown as { __frameProbe: { recording: boolean; work: number[]; intervals: number[]; longTasks: number[]; lastFrame: number | null } }).__frameProbe;
         p.work = [];
@@ -236,11 +263,16 @@ export async function benchDashboard(quick: boolean): Promise<DashboardBench> {
         p.recording = true;
       });
       await new Promise((r) => setTimeout(r, seconds * 1000));
-      return page.evaluate(() => {
+      const probe = await page.evaluate(() => {
         const p = (window as unknown as { __frameProbe: { recording: boolean; work: number[]; intervals: number[]; longTasks: number[] } }).__frameProbe;
         p.recording = false;
         return { work: p.work, intervals: p.intervals, longTasks: p.longTasks };
       });
+      const after = await counters();
+      const elapsedS = (performance.now() - started) / 1000;
+      const redrawsPerS: Record<string, number> = {};
+      for (const [k, v] of Object.entries(after)) redrawsPerS[k] = (v.draws - (before[k]?.draws ?? 0)) / elapsedS;
+      return { ...probe, redrawsPerS };
     };
     const seconds = quick ? 3 : 6;
     await new Promise((r) => setTimeout(r, 1000)); // let the burst's last draws settle
@@ -248,11 +280,10 @@ export async function benchDashboard(quick: boolean): Promise<DashboardBench> {
     await page.click('[data-testid="window-300"]');
     await new Promise((r) => setTimeout(r, 1000));
     const w300 = await measure(seconds);
-    const points = await page.evaluate(() => {
-      const el = document.querySelector('db-app')?.shadowRoot?.querySelector('db-live-chart') ?? document.querySelector('db-live-chart');
-      const v = el?.getAttribute('data-points');
-      return v ? Number(v) : null;
-    });
+    const charts = await counters();
+    const chartPoints: Record<string, number> = {};
+    for (const [k, v] of Object.entries(charts)) chartPoints[k] = v.points;
+    const points = charts.thrust?.points ?? null;
     const cdp = await context.newCDPSession(page);
     await cdp.send('Performance.enable');
     const metrics = (await cdp.send('Performance.getMetrics')).metrics;
@@ -273,6 +304,9 @@ export async function benchDashboard(quick: boolean): Promise<DashboardBench> {
       js_heap_used_mb: metric('JSHeapUsedSize'),
       js_heap_total_mb: metric('JSHeapTotalSize'),
       points_drawn_per_chart: points,
+      chart_redraws_per_s_60s: w60.redrawsPerS,
+      chart_redraws_per_s_300s: w300.redrawsPerS,
+      chart_points: chartPoints,
     };
   } finally {
     if (live) clearInterval(live);
