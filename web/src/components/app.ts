@@ -225,9 +225,9 @@ export class DbApp extends LitElement {
           </div>
         </div>
         <div class="side">
+          <db-calibration-warnings></db-calibration-warnings>
           <db-bench-controls></db-bench-controls>
           <db-bench-status></db-bench-status>
-          <db-calibration-warnings></db-calibration-warnings>
           <db-identity-card></db-identity-card>
         </div>
       </div>
