@@ -107,7 +107,7 @@ export class DbCalibrationPanel extends LitElement {
     css`
       .grid {
         display: grid;
-        grid-template-columns: repeat(auto-fit, minmax(17rem, 1fr));
+        grid-template-columns: repeat(auto-fit, minmax(14.5rem, 1fr));
         gap: 0.8rem;
       }
       section {
@@ -228,6 +228,11 @@ export class DbCalibrationPanel extends LitElement {
       .scroll {
         overflow-x: auto;
       }
+      /* Readings and the calibration in force are a few numbers: keep them together, not spread over the page. */
+      table.compact {
+        width: auto;
+        min-width: min(100%, 34rem);
+      }
       ul.warnings {
         margin: 0 0 0.8rem;
         padding: 0.5rem 0.8rem 0.5rem 1.6rem;
@@ -315,7 +320,7 @@ export class DbCalibrationPanel extends LitElement {
     const ended = !j.live;
     const bad = j.state === 'refused' || j.state === 'failed';
     const fit = j.fit;
-    return html`<div class="job ${ended ? 'ended' : ''} ${j.state}" data-testid="cal-job" data-state=${j.state} data-action=${j.action} data-step=${String(j.step)} data-readings=${String(j.readings.length)}>
+    return html`<div class="job ${ended ? 'ended' : ''} ${j.state}" data-testid="cal-job" data-job=${String(j.job)} data-state=${j.state} data-action=${j.action} data-step=${String(j.step)} data-readings=${String(j.readings.length)}>
       <div class="job-head">
         <strong>${ACTION_TITLES[j.action]}</strong>
         <span class="badge ${j.state === 'applied' ? 'good' : bad ? 'bad' : j.live ? 'warn' : ''}" data-testid="cal-state">${STATE_LABELS[j.state]}</span>
@@ -342,7 +347,7 @@ export class DbCalibrationPanel extends LitElement {
         : nothing}
       ${j.readings.length
         ? html`<div class="scroll">
-            <table data-testid="cal-readings">
+            <table class="compact" data-testid="cal-readings">
               <thead>
                 <tr>
                   ${span ? html`<th>load (kg)</th>` : nothing}
@@ -395,7 +400,7 @@ export class DbCalibrationPanel extends LitElement {
         <h3>Load-cell span</h3>
         <p class="note">Known masses hung on the thrust axis, in kilograms. The empty cell is measured first; each mass is asked for in turn. With three or more loads the non-linearity is checked and an implausible fit is refused.</p>
         <div class="row">
-          <label style="flex:1"
+          <label style="flex:1 1 9rem"
             >Masses (kg)<input type="text" data-testid="cal-masses" .value=${this._masses} @input=${(e: Event) => (this._masses = (e.target as HTMLInputElement).value)}
           /></label>
           <button class="primary" data-testid="cal-span-start" ?disabled=${off} @click=${() => this._startSpan()}>Start span</button>
@@ -432,7 +437,7 @@ export class DbCalibrationPanel extends LitElement {
 
   private _renderInForce(s: CalibrationStatusView) {
     const rows = (Object.keys(s.in_force) as CalibrationEntryView['channel'][]).map((ch) => ({ ch, ...s.in_force[ch] }));
-    return html`<table data-testid="cal-in-force">
+    return html`<table class="compact" data-testid="cal-in-force">
       <thead>
         <tr>
           <th class="left">channel</th>
