@@ -1,6 +1,6 @@
 import { html } from 'lit';
 import uPlot from 'uplot';
-import { efficiencyPoints, thinScatter } from '../data/decimate.js';
+import { LiveEfficiency, thinScatter } from '../data/decimate.js';
 import { readPrediction } from '../data/prediction.js';
 import { GRAM_FORCE_N, efficiencyUnit, thrustFactor } from '../data/units.js';
 import { PlotElement, axisStyle } from './plot-base.js';
@@ -10,6 +10,34 @@ const MODEL = '#1c2430';
 const IDEAL_OPEN = '#8a94a3';
 const IDEAL_DUCTED = '#b4531b';
 const RUN_POINTS = '#c2185b';
+/** Side of a measured dot, CSS pixels; also the thinning cell, so kept dots tile the plot and barely overlap. */
+const DOT_PX = 4;
+
+/**
+ * Filled squares, one axis-aligned rectangle per point in one path, on whole device pixels. uPlot's own
+ * points builder adds a circle (an arc) per point: with software raster that made the scatter the most
+ * expensive thing on the page, and at four pixels a square and a dot look alike.
+ */
+function squareDots(sizeCss: number): uPlot.Series.PathBuilder {
+  return (u, seriesIdx) => {
+    const [xs, ys] = u.data[seriesIdx] as unknown as [ArrayLike<number>, ArrayLike<number | null>];
+    const side = Math.max(1, Math.round(sizeCss * uPlot.pxRatio));
+    const half = side / 2;
+    const fill = new Path2D();
+    const clip = new Path2D();
+    const { left, top, width, height } = u.bbox;
+    clip.rect(left - side, top - side, width + 2 * side, height + 2 * side);
+    const n = Math.min(xs?.length ?? 0, ys?.length ?? 0);
+    for (let i = 0; i < n; i++) {
+      const y = ys[i];
+      if (y === null || y !== y) continue;
+      const px = Math.round(u.valToPos(xs[i], 'x', true) - half);
+      const py = Math.round(u.valToPos(y, 'y', true) - half);
+      fill.rect(px, py, side, side);
+    }
+    return { fill, clip, flags: 3 }; // BAND_CLIP_FILL | BAND_CLIP_STROKE, as uPlot's points builder
+  };
+}
 
 /** The air density and rig the daemon computes with (snapshot.extras.atmosphere and .rig). */
 export function airAndRig(extras: Readonly<Record<string, unknown>> | undefined): { density: number | null; source: string | null; rig: string | null } {
@@ -24,10 +52,12 @@ export function airAndRig(extras: Readonly<Record<string, unknown>> | undefined)
 
 /**
  * Thrust per watt against thrust: the recent measured points as dots (the chosen time window, thinned to one
- * per pixel cell; idle and coasting rows left out, see efficiencyPoints), and, when the daemon provides extras.prediction (see data/prediction.ts), the model's
+ * per dot-sized cell; idle and coasting rows left out, see efficiencyPoints), and, when the daemon provides extras.prediction (see data/prediction.ts), the model's
  * curve and the ideal open and ducted lines on top.
  */
 export class DbEfficiencyChart extends PlotElement {
+  private readonly _points = new LiveEfficiency();
+
   constructor() {
     super(['snapshot', 'samples', 'extras', 'run']);
   }
@@ -37,11 +67,16 @@ export class DbEfficiencyChart extends PlotElement {
   }
 
   /**
-   * A scatter of the last minutes does not need sixty frames a second, and re-pairing a five-minute window
-   * at 1 kHz costs tens of milliseconds: four times a second is plenty.
+   * A scatter of the last minutes does not need sixty frames a second, and thinning a five-minute window
+   * at 1 kHz (300,000 points) costs a few milliseconds: four times a second is plenty.
    */
   protected override get redrawEveryMs(): number {
     return 250;
+  }
+
+  /** Thousands of dots on a plot twice the height of a live chart: a frame of its own. */
+  protected override get drawCost(): number {
+    return 2;
   }
 
   private _units() {
@@ -98,10 +133,10 @@ export class DbEfficiencyChart extends PlotElement {
           label: 'measured',
           stroke: MEASURED,
           fill: MEASURED,
-          // The points path builder draws every point as a filled dot (size from points.size); the per-point
-          // markers are off so nothing is drawn twice.
-          paths: uPlot.paths.points!(),
-          points: { show: false, size: 5, width: 0 },
+          // Every point as a filled square (see squareDots); the per-point markers are off so nothing is
+          // drawn twice.
+          paths: squareDots(DOT_PX),
+          points: { show: false, size: DOT_PX, width: 0 },
           facets: [{ scale: 'x', auto: true }, { scale: 'y', auto: true }],
         } as uPlot.Series,
         line('model', MODEL),
@@ -131,15 +166,15 @@ export class DbEfficiencyChart extends PlotElement {
     let last: number | null = null;
     if (c) {
       const ring = c.ring;
-      const xTo = ring.lastT();
+      const xTo = ring.length ? ring.lastT() : Date.now();
       const windowMs = (this._dash.prefs?.windowS ?? 60) * 1000;
-      const i0 = ring.length ? ring.lowerBound(xTo - windowMs) : 0;
-      const pts = efficiencyPoints(ring.t, ring.ch.thrust, ring.ch.power, ring, i0, ring.length, ring.ch.out);
-      const xs = pts.thrustN.map((v) => v * u.xf);
-      const ys = pts.gramsPerWatt.map((v) => v * u.yf);
-      const thin = thinScatter(xs, ys, width, this.plotHeight);
-      measured = [thin.x, thin.y];
-      last = ys.length ? ys[ys.length - 1] : null;
+      const pts = this._points.update(ring, ring.ch.thrust, ring.ch.power, ring.ch.out, xTo - windowMs);
+      // One point per dot-sized cell: more would be drawn over each other. Thinned in newtons and gf/W, then
+      // converted: a positive factor maps the same points to the same cells.
+      const thin = thinScatter(pts.thrustN, pts.gramsPerWatt, width / DOT_PX, this.plotHeight / DOT_PX);
+      measured = [thin.x.map((v) => v * u.xf), thin.y.map((v) => v * u.yf)];
+      const n = pts.gramsPerWatt.length;
+      last = n ? pts.gramsPerWatt[n - 1] * u.yf : null;
     }
     const p = readPrediction(c?.extras);
     const scaleY = (a: (number | null)[]) => a.map((v) => (v === null ? null : v * u.yf));

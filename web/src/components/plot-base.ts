@@ -1,12 +1,13 @@
 // What both charts share: a uPlot inside the shadow root, sized to the element by a ResizeObserver, redrawn
-// at most once per animation frame however many messages arrive, rebuilt when its options change (units),
-// and released when the element leaves the page. uPlot's stylesheet is adopted into each shadow root
-// because page styles do not reach inside one.
+// in its turn in the page's DrawScheduler (at most once per animation frame however many messages arrive,
+// no more often than the chart's interval, and never all six charts in one frame), rebuilt when its options
+// change (units), and released when the element leaves the page. uPlot's stylesheet is adopted into each
+// shadow root because page styles do not reach inside one.
 import { LitElement, css, html, unsafeCSS, type PropertyValues } from 'lit';
 import uPlot from 'uplot';
 import uplotCss from 'uplot/dist/uPlot.min.css?inline';
 import { DashboardController } from '../data/context.js';
-import { FrameCoalescer } from '../data/frame.js';
+import { pageScheduler, type DrawJob } from '../data/frame.js';
 import type { ClientChange } from '../data/client.js';
 import { downloadChartPng, fileSlug, legendOf, type PngDecor } from './chart-png.js';
 
@@ -61,27 +62,40 @@ export abstract class PlotElement extends LitElement {
 
   protected readonly _dash: DashboardController;
   protected _plot: uPlot | null = null;
-  private readonly _frame = new FrameCoalescer(() => this._draw());
+  /** Our turn in the page's scheduler while on the page. */
+  private _job: DrawJob | null = null;
   private _resize: ResizeObserver | null = null;
   private _width = 0;
   private _draws = 0;
-  private _lastDraw = -Infinity;
   /** Whether the current uPlot was built with any data at all (see _draw). */
   private _builtWithData = false;
-  private _later: ReturnType<typeof setTimeout> | null = null;
 
   constructor(changes: readonly ClientChange[]) {
     super();
     this._dash = new DashboardController(this, changes, (c) => {
       if (c === 'prefs') return this._rebuild();
       if (c !== 'samples') this.requestUpdate(); // the head may describe the snapshot or extras
-      this._frame.schedule();
+      this._schedule();
     });
   }
 
   /** Least time between two redraws; 0 means every animation frame that has new data. */
   protected get redrawEveryMs(): number {
     return 0;
+  }
+
+  /** Share of a frame this chart's redraw takes, against the scheduler's budget (see DrawScheduler). */
+  protected get drawCost(): number {
+    return 1;
+  }
+
+  /** Plot width in CSS pixels (0 before the first layout). */
+  protected get plotWidth(): number {
+    return this._width;
+  }
+
+  private _schedule(): void {
+    this._job?.request();
   }
 
   /** Plot height in CSS pixels. */
@@ -115,7 +129,7 @@ export abstract class PlotElement extends LitElement {
         this._width = w;
         if (this._plot) this._plot.setSize({ width: w, height: this.plotHeight });
         else this._rebuild();
-        this._frame.schedule();
+        this._schedule();
       }
     });
     this._resize.observe(box);
@@ -123,9 +137,8 @@ export abstract class PlotElement extends LitElement {
 
   override disconnectedCallback(): void {
     super.disconnectedCallback();
-    this._frame.cancel();
-    if (this._later !== null) clearTimeout(this._later);
-    this._later = null;
+    this._job?.release();
+    this._job = null;
     this._resize?.disconnect();
     this._resize = null;
     this._plot?.destroy();
@@ -134,6 +147,7 @@ export abstract class PlotElement extends LitElement {
   }
 
   override connectedCallback(): void {
+    this._job ??= pageScheduler().add(() => this._draw(), { minIntervalMs: () => this.redrawEveryMs, cost: this.drawCost });
     super.connectedCallback();
     // Re-attached after a move: observe again (firstUpdated runs only once).
     if (this.hasUpdated && !this._resize) this.firstUpdated(new Map());
@@ -148,21 +162,11 @@ export abstract class PlotElement extends LitElement {
     const data = this.makeData(this._width).data;
     this._builtWithData = hasData(data);
     this._plot = new uPlot(opts, data, box);
-    this._frame.schedule();
+    this._schedule();
   }
 
   private _draw(): void {
     if (!this._plot) return;
-    const now = performance.now();
-    const wait = this._lastDraw + this.redrawEveryMs - now;
-    if (wait > 0) {
-      this._later ??= setTimeout(() => {
-        this._later = null;
-        this._frame.schedule();
-      }, wait);
-      return;
-    }
-    this._lastDraw = now;
     const { data, points, last } = this.makeData(this._width);
     if (!this._builtWithData && hasData(data)) {
       // A uPlot made with no data at all (the page opened before the snapshot) sizes its axes to nothing;

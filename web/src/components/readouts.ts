@@ -1,14 +1,15 @@
 import { LitElement, css, html } from 'lit';
 import type { SampleChannel } from '../../../server/api/messages.js';
 import { DashboardController } from '../data/context.js';
+import { pageScheduler, type DrawJob } from '../data/frame.js';
 import { MIN_EFFICIENCY_POWER_W } from '../data/decimate.js';
 import { GRAM_FORCE_N, efficiencyUnit, thrustDecimals, thrustFactor } from '../data/units.js';
 import { SERIES_COLOURS } from './styles.js';
 
 /** A value older than this (against the newest sample) is greyed: that sensor has stopped reporting. */
 const STALE_MS = 2000;
-/** Numbers that change sixty times a second cannot be read; ten is plenty. */
-const RENDER_EVERY_MS = 100;
+/** Numbers that change sixty times a second cannot be read; five is plenty. */
+const RENDER_EVERY_MS = 200;
 
 interface Tile {
   key: string;
@@ -75,21 +76,26 @@ export class DbReadouts extends LitElement {
     }
   `;
 
-  private readonly _dash = new DashboardController(this, ['snapshot', 'samples', 'connection'], () => this._soon());
-  private _timer: ReturnType<typeof setTimeout> | null = null;
+  private readonly _dash = new DashboardController(this, ['snapshot', 'samples', 'connection'], (c) => {
+    // A lost connection greys the numbers at once; new samples wait for the readouts' turn.
+    if (c === 'connection' || c === 'snapshot') this.requestUpdate();
+    else this._job?.request();
+  });
+  /**
+   * The readouts take their turn in the page's scheduler like the charts: the text changes inside an animation
+   * frame (Lit renders in the microtask after it), never in the same frame as a full set of chart redraws.
+   */
+  private _job: DrawJob | null = null;
 
-  private _soon(): void {
-    if (this._timer !== null) return;
-    this._timer = setTimeout(() => {
-      this._timer = null;
-      this.requestUpdate();
-    }, RENDER_EVERY_MS);
+  override connectedCallback(): void {
+    this._job ??= pageScheduler().add(() => this.requestUpdate(), { minIntervalMs: () => RENDER_EVERY_MS, cost: 0.5 });
+    super.connectedCallback();
   }
 
   override disconnectedCallback(): void {
     super.disconnectedCallback();
-    if (this._timer !== null) clearTimeout(this._timer);
-    this._timer = null;
+    this._job?.release();
+    this._job = null;
   }
 
   private _tiles(): Tile[] {

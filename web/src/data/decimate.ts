@@ -253,8 +253,42 @@ export function efficiencyPoints(
   const res: EfficiencyPoints = { thrustN: [], gramsPerWatt: [] };
   const a = Math.max(0, Math.min(i0, win.length));
   const b = Math.max(a, Math.min(i1, win.length));
+  pairRange(newPairState(), t, thrust, power, out, win, a, b, holdMs, minPowerW, (_t, th, gpw) => {
+    res.thrustN.push(th);
+    res.gramsPerWatt.push(gpw);
+  });
+  return res;
+}
+
+/** What the pairing carries from one row to the next (see efficiencyPoints). */
+interface PairState {
+  lastP: number;
+  lastPt: number;
+  sumP: number;
+  nP: number;
+  lastOut: number;
+}
+
+function newPairState(): PairState {
+  return { lastP: NaN, lastPt: -Infinity, sumP: 0, nP: 0, lastOut: NaN };
+}
+
+/** Pairs logical rows [a, b) of a ring, carrying the state in s; emit gets (host time, thrust N, gf/W). */
+function pairRange(
+  s: PairState,
+  t: ArrayLike<number>,
+  thrust: ArrayLike<number>,
+  power: ArrayLike<number>,
+  out: ArrayLike<number> | undefined,
+  win: RingWindow,
+  a: number,
+  b: number,
+  holdMs: number,
+  minPowerW: number,
+  emit: (t: number, thrustN: number, gramsPerWatt: number) => void,
+): void {
   const cap = win.capacity;
-  let lastP = NaN, lastPt = -Infinity, sumP = 0, nP = 0, lastOut = NaN;
+  let { lastP, lastPt, sumP, nP, lastOut } = s;
   let p = win.start + a;
   if (p >= cap) p -= cap;
   for (let i = a; i < b; i++, p = p + 1 === cap ? 0 : p + 1) {
@@ -277,10 +311,93 @@ export function efficiencyPoints(
     nP = 0;
     if (!(pUsed >= minPowerW)) continue;
     if (lastOut < MIN_EFFICIENCY_OUTPUT) continue; // NaN (no output channel) passes
-    res.thrustN.push(th);
-    res.gramsPerWatt.push(th / GRAM_FORCE_N / pUsed);
+    emit(tv, th, th / GRAM_FORCE_N / pUsed);
   }
-  return res;
+  s.lastP = lastP;
+  s.lastPt = lastPt;
+  s.sumP = sumP;
+  s.nP = nP;
+  s.lastOut = lastOut;
+}
+
+/** The thrust-per-watt points of a live window: views into LiveEfficiency's buffers, valid until its next update. */
+export interface LivePoints {
+  /** Host time of each point's thrust sample, ms, ascending. */
+  t: Float64Array;
+  thrustN: Float64Array;
+  gramsPerWatt: Float64Array;
+}
+
+/**
+ * efficiencyPoints kept up to date for a sliding window: each update pairs only the rows that arrived since
+ * the last one (the pairing state carries over), appends their points and drops those older than the window.
+ * At 1 kHz with a five-minute window that is about 50 rows an update instead of 300,000. It starts over when
+ * the ring is cleared, when rows it had not read yet were overwritten, or when the window is widened past the
+ * rows it has read. The points equal efficiencyPoints over the window, except that the first thrust sample of
+ * the window is paired with the power since the sample before it rather than since the window's edge (tested).
+ */
+export class LiveEfficiency {
+  private _t = new Float64Array(1024);
+  private _x = new Float64Array(1024);
+  private _y = new Float64Array(1024);
+  private _head = 0;
+  private _tail = 0;
+  private _state = newPairState();
+  private _generation = -1;
+  /** Lasting number (see GrowingColumns.appended) of the next row to read. */
+  private _next = 0;
+  /** Host time from which every row the ring still holds has been read. */
+  private _from = Infinity;
+
+  constructor(
+    private readonly _holdMs = 250,
+    private readonly _minPowerW = MIN_EFFICIENCY_POWER_W,
+  ) {}
+
+  update(ring: GrowingColumns, thrust: ArrayLike<number>, power: ArrayLike<number>, out: ArrayLike<number> | undefined, xFrom: number): LivePoints {
+    const base = ring.appended - ring.length;
+    if (ring.generation !== this._generation || this._next < base || xFrom < this._from) {
+      this._generation = ring.generation;
+      this._state = newPairState();
+      this._head = this._tail = 0;
+      this._next = base + ring.lowerBound(xFrom);
+      this._from = xFrom;
+    }
+    pairRange(this._state, ring.t, thrust, power, out, ring, this._next - base, ring.length, this._holdMs, this._minPowerW, (t, th, gpw) => this._push(t, th, gpw));
+    this._next = base + ring.length;
+    this._from = Math.max(this._from, xFrom);
+    while (this._head < this._tail && this._t[this._head] < xFrom) this._head++;
+    return {
+      t: this._t.subarray(this._head, this._tail),
+      thrustN: this._x.subarray(this._head, this._tail),
+      gramsPerWatt: this._y.subarray(this._head, this._tail),
+    };
+  }
+
+  private _push(t: number, x: number, y: number): void {
+    if (this._tail === this._t.length) this._makeRoom();
+    this._t[this._tail] = t;
+    this._x[this._tail] = x;
+    this._y[this._tail] = y;
+    this._tail++;
+  }
+
+  /** Moves the kept points to the front, doubling the buffers when they are more than half full. */
+  private _makeRoom(): void {
+    const live = this._tail - this._head;
+    const cap = live * 2 > this._t.length ? this._t.length * 2 : this._t.length;
+    const move = (a: Float64Array<ArrayBuffer>): Float64Array<ArrayBuffer> => {
+      if (cap === a.length) return a.copyWithin(0, this._head, this._tail);
+      const b = new Float64Array(cap);
+      b.set(a.subarray(this._head, this._tail));
+      return b;
+    };
+    this._t = move(this._t);
+    this._x = move(this._x);
+    this._y = move(this._y);
+    this._head = 0;
+    this._tail = live;
+  }
 }
 
 export interface Thinned {
