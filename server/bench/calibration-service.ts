@@ -202,7 +202,9 @@ export class CalibrationService extends TypedEmitter<CalibrationServiceEvents> {
       if (Date.now() - this.lastCheck >= RECHECK_MS) this.recheck();
     });
     this.offBench = d.controller.on('bench', (b) => {
-      if (this.running && b.state !== 'safe') this.abandon('failed', `the bench left the safe state (${b.state}: ${b.reason}); nothing was applied`);
+      // A tare is left to end by itself: once the firmware has acknowledged it the cell is zeroed, and the
+      // history must say so (it takes well under a second).
+      if (this.running && this.running.view.action !== 'tare' && b.state !== 'safe') this.abandon('failed', `the bench left the safe state (${b.state}: ${b.reason}); nothing was applied`);
     });
     this.ageTimer = setInterval(() => this.recheck(), AGE_CHECK_MS);
     this.ageTimer.unref();
