@@ -280,6 +280,8 @@ export async function benchDashboard(quick: boolean): Promise<DashboardBench> {
     await page.click('[data-testid="window-300"]');
     await new Promise((r) => setTimeout(r, 1000));
     const w300 = await measure(seconds);
+    // DUCTBENCH_DASHBOARD_SHOT=file.png: the page as it stands after the measurement, to see the charts move.
+    if (process.env.DUCTBENCH_DASHBOARD_SHOT) await page.screenshot({ path: process.env.DUCTBENCH_DASHBOARD_SHOT, fullPage: true });
     const charts = await counters();
     const chartPoints: Record<string, number> = {};
     for (const [k, v] of Object.entries(charts)) chartPoints[k] = v.points;
