@@ -5,7 +5,7 @@ import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
 import { emptyBatch, type SampleBatch } from '../server/api/messages.js';
 import { SampleRing } from '../web/src/data/ring.js';
-import { LiveEfficiency, efficiencyPoints } from '../web/src/data/decimate.js';
+import { LiveEfficiency, efficiencyPoints, thinScatter } from '../web/src/data/decimate.js';
 import { DrawScheduler, type SchedulerHost } from '../web/src/data/frame.js';
 
 interface Row {
@@ -119,6 +119,39 @@ describe('LiveEfficiency', () => {
     ring.append(batch(rows.slice(50, 1000))); // 950 more into a ring of 100
     const got = live.update(ring, ring.ch.thrust, ring.ch.power, ring.ch.out, -Infinity);
     expect(Array.from(got.t)).toEqual(ring.column('t'));
+  });
+});
+
+describe('thinScatter', () => {
+  it('keeps exactly the newest point of every occupied cell, in input order', () => {
+    const coord = fc.oneof({ weight: 9, arbitrary: fc.integer({ min: -1000, max: 1000 }).map((v) => v / 10) }, { weight: 1, arbitrary: fc.constantFrom(NaN, Infinity) });
+    fc.assert(
+      fc.property(fc.array(fc.tuple(coord, coord), { maxLength: 300 }), fc.integer({ min: 1, max: 40 }), fc.integer({ min: 1, max: 40 }), (pts, cols, rows) => {
+        const xs = pts.map((p) => p[0]);
+        const ys = pts.map((p) => p[1]);
+        const got = thinScatter(Float64Array.from(xs), Float64Array.from(ys), cols, rows);
+        const finite = pts.map((p, i) => ({ x: p[0], y: p[1], i })).filter((p) => Number.isFinite(p.x) && Number.isFinite(p.y));
+        if (finite.length === 0) {
+          expect(got.x).toEqual([]);
+          return;
+        }
+        const [x0, x1] = [Math.min(...finite.map((p) => p.x)), Math.max(...finite.map((p) => p.x))];
+        const [y0, y1] = [Math.min(...finite.map((p) => p.y)), Math.max(...finite.map((p) => p.y))];
+        // The grid spans the points' own extent, scaled a hair under cols (rows) so the largest value falls
+        // in the last cell; written with Math.floor and division, against the implementation's | 0.
+        const cell = (p: { x: number; y: number }) => {
+          const cx = x1 > x0 ? Math.floor((p.x - x0) * ((cols - 1e-9) / (x1 - x0))) : 0;
+          const cy = y1 > y0 ? Math.floor((p.y - y0) * ((rows - 1e-9) / (y1 - y0))) : 0;
+          return cy * cols + cx;
+        };
+        const newest = new Map<number, number>();
+        for (const p of finite) newest.set(cell(p), p.i);
+        const want = [...newest.values()].sort((a, b) => a - b);
+        expect(got.x).toEqual(want.map((i) => xs[i]));
+        expect(got.y).toEqual(want.map((i) => ys[i]));
+      }),
+      { numRuns: 300 },
+    );
   });
 });
 

@@ -410,11 +410,14 @@ export interface Thinned {
  * newest (drawn last, so on top). Output stays in the input's order.
  */
 export function thinScatter(xs: ArrayLike<number>, ys: ArrayLike<number>, cols: number, rows: number): Thinned {
+  // Called at 4 Hz over up to 300,000 points (five minutes at 1 kHz), so: two passes, finiteness as x - x === 0
+  // (false for NaN and the infinities), truncation by | 0 (every operand is >= 0), and the kept indices
+  // collected newest first, then read back in input order.
   const n = Math.min(xs.length, ys.length);
   let xMin = Infinity, xMax = -Infinity, yMin = Infinity, yMax = -Infinity;
   for (let i = 0; i < n; i++) {
     const x = xs[i], y = ys[i];
-    if (!Number.isFinite(x) || !Number.isFinite(y)) continue;
+    if (x - x !== 0 || y - y !== 0) continue;
     if (x < xMin) xMin = x;
     if (x > xMax) xMax = x;
     if (y < yMin) yMin = y;
@@ -427,20 +430,22 @@ export function thinScatter(xs: ArrayLike<number>, ys: ArrayLike<number>, cols: 
   const sx = xMax > xMin ? (c - 1e-9) / (xMax - xMin) : 0;
   const sy = yMax > yMin ? (r - 1e-9) / (yMax - yMin) : 0;
   const taken = new Uint8Array(c * r);
-  const keep = new Uint8Array(n);
+  const kept = new Int32Array(Math.min(n, c * r));
+  let m = 0;
   for (let i = n - 1; i >= 0; i--) {
     const x = xs[i], y = ys[i];
-    if (!Number.isFinite(x) || !Number.isFinite(y)) continue;
-    const cell = Math.floor((y - yMin) * sy) * c + Math.floor((x - xMin) * sx);
-    if (taken[cell]) continue;
+    if (x - x !== 0 || y - y !== 0) continue;
+    const cell = ((y - yMin) * sy | 0) * c + ((x - xMin) * sx | 0);
+    if (taken[cell] !== 0) continue;
     taken[cell] = 1;
-    keep[i] = 1;
+    kept[m++] = i;
   }
-  for (let i = 0; i < n; i++) {
-    if (keep[i]) {
-      out.x.push(xs[i]);
-      out.y.push(ys[i]);
-    }
+  out.x = new Array<number>(m);
+  out.y = new Array<number>(m);
+  for (let k = 0; k < m; k++) {
+    const i = kept[m - 1 - k];
+    out.x[k] = xs[i];
+    out.y[k] = ys[i];
   }
   return out;
 }
