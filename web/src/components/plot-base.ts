@@ -65,6 +65,15 @@ export abstract class PlotElement extends LitElement {
   /** Our turn in the page's scheduler while on the page. */
   private _job: DrawJob | null = null;
   private _resize: ResizeObserver | null = null;
+  /**
+   * Whether the chart is rendered at all: the live bench stays mounted but hidden (display: none) while the
+   * Sessions or Compare view is open, and its six charts need not keep drawing then. The huge margin makes a
+   * chart that is merely scrolled out of view count as shown, so it is always current when scrolled to.
+   */
+  private _shown: IntersectionObserver | null = null;
+  private _hidden = false;
+  /** New data came while hidden: draw when shown again. */
+  private _missed = false;
   private _width = 0;
   private _draws = 0;
   /** Whether the current uPlot was built with any data at all (see _draw). */
@@ -133,6 +142,18 @@ export abstract class PlotElement extends LitElement {
       }
     });
     this._resize.observe(box);
+    this._shown = new IntersectionObserver(
+      (entries) => {
+        const e = entries[entries.length - 1];
+        this._hidden = !e.isIntersecting;
+        if (!this._hidden && this._missed) {
+          this._missed = false;
+          this._schedule();
+        }
+      },
+      { rootMargin: '100000px' },
+    );
+    this._shown.observe(this);
   }
 
   override disconnectedCallback(): void {
@@ -141,6 +162,9 @@ export abstract class PlotElement extends LitElement {
     this._job = null;
     this._resize?.disconnect();
     this._resize = null;
+    this._shown?.disconnect();
+    this._shown = null;
+    this._hidden = false;
     this._plot?.destroy();
     this._plot = null;
     this._width = 0;
@@ -167,6 +191,10 @@ export abstract class PlotElement extends LitElement {
 
   private _draw(): void {
     if (!this._plot) return;
+    if (this._hidden) {
+      this._missed = true;
+      return;
+    }
     const { data, points, last } = this.makeData(this._width);
     if (!this._builtWithData && hasData(data)) {
       // A uPlot made with no data at all (the page opened before the snapshot) sizes its axes to nothing;
