@@ -94,6 +94,12 @@ describe('ductbench CLI', () => {
     expect(r.code).toBe(0);
   });
 
+  it('serve on another interface warns that the bench is exposed', async () => {
+    const r = await run(['serve', '--sim', '--host', '127.0.0.2', '--http-port', '0'], { untilStdout: /dashboard: http:\/\/127\.0\.0\.2:\d+\//, thenSignal: 'SIGTERM' });
+    expect(r.stderr).toMatch(/WARNING: listening on 127\.0\.0\.2: anyone who can reach this address and has the token can drive the bench/);
+    expect(r.code).toBe(0);
+  });
+
   it('ports lists without udev (falls back to scanning /dev)', async () => {
     const r = await run(['ports', '--json']);
     expect(r.code).toBe(0);

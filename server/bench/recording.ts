@@ -48,7 +48,14 @@ export class SessionKeeper {
       if (tr.to === 'armed' && tr.from === 'safe' && !this.rec) this.begin();
       else if (this.rec && !this.managed) {
         if (tr.to === 'safe') this.finish('completed');
-        else if (tr.to === 'tripped') this.finish('tripped');
+        // The trip's own record (rule, value, limit, sample) is written right after this transition, by the
+        // same call that cut the throttle: close the session only once that is in.
+        else if (tr.to === 'tripped') {
+          const rec = this.rec;
+          setImmediate(() => {
+            if (this.rec === rec) this.finish('tripped');
+          });
+        }
         else if (tr.to === 'disconnected') this.finish('interrupted');
       }
     });
