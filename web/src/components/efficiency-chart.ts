@@ -140,6 +140,10 @@ export class DbEfficiencyChart extends PlotElement {
     const a = axisStyle(this);
     const u = this._units();
     const axis = { stroke: a.stroke, grid: { stroke: a.grid, width: 1 }, ticks: { stroke: a.grid, width: 1 } };
+    // The ideal lines climb without bound towards zero thrust; letting them set the y range would squash the
+    // measured cloud into a strip at the bottom. They are drawn, clipped, in the range the data and model set.
+    // The ideal lines climb without bound towards zero thrust; the y range (below) ignores them and they are
+    // drawn clipped in the range the measurements and the model set.
     const line = (label: string, stroke: string, dash?: number[]): uPlot.Series => ({
       label,
       stroke,
@@ -155,7 +159,29 @@ export class DbEfficiencyChart extends PlotElement {
       height,
       legend: { show: true, live: false },
       cursor: { drag: { x: false, y: false, setScale: false }, points: { show: false } },
-      scales: { x: { time: false, auto: true }, y: { auto: true } },
+      scales: {
+        x: { time: false, auto: true },
+        y: {
+          auto: true,
+          // The y range from what was measured and what the model says (series 1, 2 and 5), never from the
+          // ideal lines, which climb without bound towards zero thrust.
+          range: (plot: uPlot, dataMin: number, dataMax: number): uPlot.Range.MinMax => {
+            let lo = Infinity;
+            let hi = -Infinity;
+            for (const i of [1, 2, 5]) {
+              const ys = (plot.data[i] as unknown as [number[], (number | null)[]] | undefined)?.[1] ?? [];
+              for (const y of ys) {
+                if (y === null || !Number.isFinite(y)) continue;
+                if (y < lo) lo = y;
+                if (y > hi) hi = y;
+              }
+            }
+            if (!Number.isFinite(lo)) return [dataMin, dataMax];
+            const pad = (hi - lo) * 0.08 || Math.abs(hi) * 0.1 || 1;
+            return [Math.max(0, lo - pad), hi + pad];
+          },
+        },
+      },
       series: [
         {},
         {
