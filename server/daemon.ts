@@ -183,6 +183,7 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
   }
   const limits: Limits = parseLimits({ ...(rig?.limits ?? {}), ...(opts.limits ?? {}) }, rig?.limits ? 'rig limits' : 'limits');
   controller.maxSlewPerS = limits.max_slew_per_s;
+  controller.maxThrottle = limits.max_throttle;
   const atmosphere = resolveAtmosphere(opts.atmosphere);
   let model: RigModel | null = null;
   try {

@@ -206,3 +206,13 @@ describe('throttle slew', () => {
     expect(r.d.sim!.state.commanded).toBe(0);
   });
 });
+
+describe('rig throttle ceiling', () => {
+  it("a throttle above the rig's max_throttle is refused, never clamped, and the device is untouched", async () => {
+    const r = await spinUp({ max_throttle: 0.5 }, 0.3);
+    await expect(r.d.controller.setThrottle(0.6)).rejects.toThrow(/max_throttle 0\.5/);
+    expect(r.d.sim!.state.commanded).toBeCloseTo(0.3, 3);
+    await r.d.controller.setThrottle(0.5);
+    expect(r.d.sim!.state.commanded).toBeCloseTo(0.5, 3);
+  });
+});

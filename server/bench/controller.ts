@@ -54,6 +54,8 @@ export class BenchController extends TypedEmitter<ControllerEvents> {
   private lastStop: { at: number; acked: boolean } | null = null;
   /** Fastest upward throttle change, fraction per second (the throttle_slew limit). Downward is never limited. */
   maxSlewPerS = 1.0;
+  /** The rig's own throttle ceiling (limits.max_throttle), applied with the device's. */
+  maxThrottle = 1.0;
 
   constructor(private readonly link: DeviceLink) {
     super();
@@ -123,6 +125,7 @@ export class BenchController extends TypedEmitter<ControllerEvents> {
     if (!mayTurn(this.stateValue)) throw new ControlError(`cannot set throttle while ${this.stateValue}`);
     const ceiling = this.link.identity?.throttleCeiling ?? 0;
     if (value > ceiling) throw new ControlError(`throttle ${value} is above the device ceiling ${ceiling}`);
+    if (value > this.maxThrottle) throw new ControlError(`throttle ${value} is above the rig's max_throttle ${this.maxThrottle}`);
     const ramp = ++this.rampId;
     const step = this.maxSlewPerS * (RAMP_TICK_MS / 1000);
     let cur = this.throttleCommand;

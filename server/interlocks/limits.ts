@@ -39,6 +39,8 @@ export interface Limits {
   deviation_trip_pct: number;
   /** Fastest upward throttle change (fraction per second); downward is never limited. */
   max_slew_per_s: number;
+  /** Highest throttle this rig may be given (0..1), below the device's own ceiling when lower: refused above, never clamped. */
+  max_throttle: number;
   /** How long a reading must stay past a trip threshold before it trips (ms): one noisy sample is not a fault. */
   debounce_ms: number;
 }
@@ -64,6 +66,7 @@ export const DEFAULT_LIMITS: Readonly<Limits> = Object.freeze({
   deviation_warn_pct: 15,
   deviation_trip_pct: 40,
   max_slew_per_s: 1.0,
+  max_throttle: 1.0,
   debounce_ms: 30,
 });
 
@@ -89,6 +92,7 @@ const RANGES: Record<keyof Limits, [number, number]> = {
   deviation_warn_pct: [1, 500],
   deviation_trip_pct: [1, 1000],
   max_slew_per_s: [0.01, 100],
+  max_throttle: [0.05, 1],
   debounce_ms: [0, 2000],
 };
 
