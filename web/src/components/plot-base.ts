@@ -3,9 +3,9 @@
 // no more often than the chart's interval, and never all six charts in one frame), rebuilt when its options
 // change (units), and released when the element leaves the page. uPlot's stylesheet is adopted into each
 // shadow root because page styles do not reach inside one.
-import { LitElement, css, html, unsafeCSS, type PropertyValues } from 'lit';
+import { LitElement, css, html, type PropertyValues } from 'lit';
+import { chartPanelStyles } from './chart-styles.js';
 import uPlot from 'uplot';
-import uplotCss from 'uplot/dist/uPlot.min.css?inline';
 import { DashboardController } from '../data/context.js';
 import { pageScheduler, type DrawJob } from '../data/frame.js';
 import type { ClientChange } from '../data/client.js';
@@ -13,49 +13,14 @@ import { downloadChartPng, fileSlug, legendOf, type PngDecor } from './chart-png
 
 export abstract class PlotElement extends LitElement {
   static override styles = [
-    unsafeCSS(uplotCss),
+    ...chartPanelStyles,
     css`
-      :host {
-        display: block;
-        background: var(--db-panel);
-        border: 1px solid var(--db-line);
-        border-radius: 8px;
-        padding: 0.5rem 0.6rem 0.3rem;
-        min-width: 0;
-      }
       .head {
-        display: flex;
         justify-content: space-between;
-        align-items: baseline;
         gap: 0.5rem;
-        font-size: 0.8rem;
-      }
-      .title {
-        font-weight: 650;
-        letter-spacing: 0.06em;
-        text-transform: uppercase;
-        color: var(--db-muted);
       }
       .plot {
-        width: 100%;
         min-height: var(--plot-height, 170px);
-      }
-      .uplot {
-        font-family: inherit;
-      }
-      .u-legend {
-        font-size: 0.75rem;
-      }
-      .head .png {
-        margin-left: auto;
-        font: inherit;
-        font-size: 0.72rem;
-        padding: 0.1rem 0.45rem;
-        border: 1px solid var(--db-line-strong);
-        border-radius: 5px;
-        background: var(--db-panel);
-        color: var(--db-muted);
-        cursor: pointer;
       }
     `,
   ];

@@ -1,6 +1,6 @@
-import { LitElement, css, html, unsafeCSS, type PropertyValues } from 'lit';
+import { LitElement, css, html, type PropertyValues } from 'lit';
+import { chartPanelStyles } from './chart-styles.js';
 import uPlot from 'uplot';
-import uplotCss from 'uplot/dist/uPlot.min.css?inline';
 import { axisStyle } from './plot-base.js';
 import { downloadChartPng, fileSlug, legendOf } from './chart-png.js';
 
@@ -31,48 +31,16 @@ export interface XySpec {
  */
 export class DbXyChart extends LitElement {
   static override styles = [
-    unsafeCSS(uplotCss),
+    ...chartPanelStyles,
     css`
-      :host {
-        display: block;
-        background: var(--db-panel);
-        border: 1px solid var(--db-line);
-        border-radius: 8px;
-        padding: 0.5rem 0.6rem 0.3rem;
-        min-width: 0;
-      }
       .head {
-        display: flex;
         gap: 0.6rem;
-        align-items: baseline;
-        font-size: 0.8rem;
-      }
-      .title {
-        font-weight: 650;
-        letter-spacing: 0.06em;
-        text-transform: uppercase;
-        color: var(--db-muted);
       }
       .muted {
         color: var(--db-muted);
       }
-      button {
-        margin-left: auto;
-        font: inherit;
-        font-size: 0.72rem;
-        padding: 0.1rem 0.45rem;
-        border: 1px solid var(--db-line-strong);
-        border-radius: 5px;
-        background: var(--db-panel);
-        color: var(--db-muted);
-        cursor: pointer;
-      }
       .plot {
-        width: 100%;
         min-height: 260px;
-      }
-      .u-legend {
-        font-size: 0.75rem;
       }
     `,
   ];
@@ -94,7 +62,7 @@ export class DbXyChart extends LitElement {
   override render() {
     return html`<div class="head">
         <span class="title">${this.spec?.title ?? ''}</span><span class="muted">${this.spec?.subtitle ?? ''}</span>
-        <button data-testid="png" title="Download this chart as a PNG image" @click=${() => void this.downloadPng()}>PNG</button>
+        <button class="png" data-testid="png" title="Download this chart as a PNG image" @click=${() => void this.downloadPng()}>PNG</button>
       </div>
       <div class="plot"></div>`;
   }
