@@ -394,7 +394,7 @@ export class DbSequencePanel extends LitElement {
     return html`
       <h2>Sequence</h2>
       ${run
-        ? html`<div data-testid="run" data-state=${run.state} data-live=${String(live)} data-points=${String(run.points.length)}>
+        ? html`<div data-testid="run" data-run=${String(run.run)} data-state=${run.state} data-live=${String(live)} data-points=${String(run.points.length)}>
             <div class="run-head">
               <strong>${run.name}</strong>
               <span class="badge ${live ? 'warn' : run.outcome === 'completed' ? 'good' : 'bad'}" data-testid="run-state">${PHASES[run.state] ?? run.state}</span>
