@@ -11,7 +11,7 @@ import {
 import type { BenchClient, Command } from '../data/client.js';
 import { DashboardController } from '../data/context.js';
 import { fmt } from './format.js';
-import { panelStyles } from './styles.js';
+import { fieldStyles, panelStyles } from './styles.js';
 
 /** Asks the page to show the calibration view (from the warnings on the live bench). */
 export const OPEN_CALIBRATION = 'db-open-calibration';
@@ -104,6 +104,7 @@ function describeEntry(e: CalibrationEntryView): string {
 export class DbCalibrationPanel extends LitElement {
   static override styles = [
     panelStyles,
+    fieldStyles,
     css`
       .grid {
         display: grid;
@@ -119,20 +120,7 @@ export class DbCalibrationPanel extends LitElement {
         margin: 0 0 0.4rem;
         font-size: 0.95rem;
       }
-      label {
-        display: grid;
-        gap: 0.15rem;
-        font-size: 0.8rem;
-        color: var(--db-muted);
-      }
       input {
-        font: inherit;
-        font-size: 0.9rem;
-        padding: 0.3rem 0.4rem;
-        border: 1px solid var(--db-line-strong);
-        border-radius: 5px;
-        background: var(--db-panel);
-        color: var(--db-ink);
         width: 100%;
       }
       input[type='number'] {

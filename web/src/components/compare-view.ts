@@ -5,7 +5,7 @@ import { saveBlob, type VehicleQuery } from '../data/api.js';
 import { DashboardController } from '../data/context.js';
 import { fmt } from './format.js';
 import { gpwStd, tableStyles } from './sessions-view.js';
-import { panelStyles } from './styles.js';
+import { fieldStyles, panelStyles } from './styles.js';
 import type { XySeries, XySpec } from './xy-chart.js';
 import './xy-chart.js';
 
@@ -17,7 +17,7 @@ const PALETTE = ['#1d4e89', '#c8553d', '#2a9d8f', '#8d6a9f', '#e9a23b', '#444444
  * effectiveness), what could not be compared, and the hover verdict for a vehicle.
  */
 export class DbCompareView extends LitElement {
-  static override styles = [panelStyles, tableStyles];
+  static override styles = [panelStyles, fieldStyles, tableStyles];
 
   static override properties = {
     ids: { attribute: false },

@@ -6,7 +6,7 @@ import { DashboardController } from '../data/context.js';
 import { thrustFactor } from '../data/units.js';
 import { NEED_CHECKLIST, checklistConfirmed } from './checklist.js';
 import { fmt, fmtPercent } from './format.js';
-import { panelStyles } from './styles.js';
+import { fieldStyles, panelStyles } from './styles.js';
 
 type SourceKind = SequenceSource['kind'];
 
@@ -65,6 +65,7 @@ function fmtDuration(s: number | null | undefined): string {
 export class DbSequencePanel extends LitElement {
   static override styles = [
     panelStyles,
+    fieldStyles,
     css`
       .tabs {
         display: flex;
@@ -81,23 +82,6 @@ export class DbSequencePanel extends LitElement {
         flex-wrap: wrap;
         gap: 0.5rem 0.9rem;
         align-items: end;
-      }
-      label {
-        display: grid;
-        gap: 0.15rem;
-        font-size: 0.8rem;
-        color: var(--db-muted);
-      }
-      input,
-      select,
-      textarea {
-        font: inherit;
-        font-size: 0.9rem;
-        padding: 0.3rem 0.4rem;
-        border: 1px solid var(--db-line-strong);
-        border-radius: 5px;
-        background: var(--db-panel);
-        color: var(--db-ink);
       }
       input[type='number'] {
         width: 5.5rem;

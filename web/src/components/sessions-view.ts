@@ -4,7 +4,7 @@ import type { SessionRecord, SessionSummary } from '../../../server/store/types.
 import { saveBlob, type SessionQuery } from '../data/api.js';
 import { DashboardController } from '../data/context.js';
 import { fmt, fmtPercent } from './format.js';
-import { panelStyles } from './styles.js';
+import { fieldStyles, panelStyles } from './styles.js';
 import type { XySpec } from './xy-chart.js';
 import './xy-chart.js';
 
@@ -45,23 +45,6 @@ export const tableStyles = css`
     gap: 0.5rem 0.8rem;
     align-items: end;
     margin-bottom: 0.6rem;
-  }
-  label {
-    display: grid;
-    gap: 0.15rem;
-    font-size: 0.8rem;
-    color: var(--db-muted);
-  }
-  input,
-  select,
-  textarea {
-    font: inherit;
-    font-size: 0.9rem;
-    padding: 0.3rem 0.4rem;
-    border: 1px solid var(--db-line-strong);
-    border-radius: 5px;
-    background: var(--db-panel);
-    color: var(--db-ink);
   }
   textarea {
     width: 100%;
@@ -125,7 +108,7 @@ function seriesOf(b: SampleBatch, ch: 'thrust' | 'power' | 'current' | 'voltage'
  * and a pick of sessions to compare.
  */
 export class DbSessionsView extends LitElement {
-  static override styles = [panelStyles, tableStyles];
+  static override styles = [panelStyles, fieldStyles, tableStyles];
 
   static override properties = {
     _q: { state: true },

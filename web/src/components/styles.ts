@@ -111,3 +111,24 @@ export const SERIES_COLOURS: Record<string, string> = {
   torque: '#3b6470',
   out: '#55606e',
 };
+
+/** Labelled form fields, as every panel with inputs draws them (panels add their own widths). */
+export const fieldStyles = css`
+  label {
+    display: grid;
+    gap: 0.15rem;
+    font-size: 0.8rem;
+    color: var(--db-muted);
+  }
+  input,
+  select,
+  textarea {
+    font: inherit;
+    font-size: 0.9rem;
+    padding: 0.3rem 0.4rem;
+    border: 1px solid var(--db-line-strong);
+    border-radius: 5px;
+    background: var(--db-panel);
+    color: var(--db-ink);
+  }
+`;
