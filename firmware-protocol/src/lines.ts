@@ -10,6 +10,12 @@ export interface LineSplitterStats {
   overlong: number;
 }
 
+/**
+ * Offered each complete line as bytes before it becomes a string: returns true when it has consumed the line.
+ * The bytes are only valid during the call (the chunk may be a pooled buffer).
+ */
+export type RawLineHandler = (buf: Buffer, start: number, end: number) => boolean;
+
 export class LineSplitter {
   /** Bytes of the current partial line (never more than `cap`). */
   private partial: Buffer = Buffer.alloc(0);
@@ -22,6 +28,8 @@ export class LineSplitter {
     private readonly onOverlong: (droppedBytes: number) => void = () => {},
     /** Longest line kept, newline not counted; one byte of slack for a trailing CR. */
     readonly cap: number = MAX_LINE_BYTES + 1,
+    /** Tried first on every line; a line it does not consume goes to onLine as a string. */
+    private readonly onRaw: RawLineHandler | null = null,
   ) {}
 
   /** Bytes currently buffered; bounded by `cap`. */
@@ -42,11 +50,14 @@ export class LineSplitter {
         this.discarding = false;
       } else if (this.partial.length === 0) {
         if (nl - start > this.cap) this.overlong(nl - start);
-        else this.emit(buf.toString('latin1', start, nl));
+        else this.emitRaw(buf, start, nl);
       } else {
         const total = this.partial.length + (nl - start);
         if (total > this.cap) this.overlong(total);
-        else this.emit(this.partial.toString('latin1', 0, this.partial.length) + buf.toString('latin1', start, nl));
+        else {
+          const line = Buffer.concat([this.partial, buf.subarray(start, nl)]);
+          this.emitRaw(line, 0, line.length);
+        }
         this.partial = Buffer.alloc(0);
       }
       start = nl + 1;
@@ -70,6 +81,14 @@ export class LineSplitter {
     }
     // Copy: the caller's chunk may be a pooled buffer that is reused after we return.
     this.partial = Buffer.concat([this.partial, buf.subarray(from, to)]);
+  }
+
+  private emitRaw(buf: Buffer, start: number, end: number): void {
+    if (this.onRaw !== null && this.onRaw(buf, start, end)) {
+      this.stats.lines++;
+      return;
+    }
+    this.emit(buf.toString('latin1', start, end));
   }
 
   private emit(line: string): void {

@@ -6,6 +6,7 @@
 
 import { decodeLine, encodeLine, nextSeq, seqGap, type DecodeErrorReason } from '../../firmware-protocol/src/codec.js';
 import { LineSplitter } from '../../firmware-protocol/src/lines.js';
+import { fastDecode } from '../../firmware-protocol/src/fast-decode.js';
 import {
   DEFAULT_HEARTBEAT_TIMEOUT_MS,
   HEARTBEAT_INTERVAL_MS,
@@ -157,6 +158,15 @@ export class DeviceLink extends TypedEmitter<LinkEvents> {
     this.splitter = new LineSplitter(
       (line) => this.onLine(line),
       () => this.countBad('too_long'),
+      undefined,
+      // Telemetry is decoded straight from the bytes; any line the fast path is unsure of comes back as a
+      // string to decodeLine, which gives the verdict.
+      (buf, start, end) => {
+        const f = fastDecode(buf, start, end, 'd2h');
+        if (f === null) return false;
+        this.onFrame(f as DeviceFrame);
+        return true;
+      },
     );
   }
 
@@ -362,10 +372,13 @@ export class DeviceLink extends TypedEmitter<LinkEvents> {
       if (this.statusValue === 'handshaking') this.handshakeJunk++;
       return;
     }
+    this.onFrame(r as unknown as DeviceFrame);
+  }
+
+  private onFrame(frame: DeviceFrame): void {
     this.counters.linesOk++;
-    if (this.rxSeq !== null) this.counters.seqGaps += seqGap(this.rxSeq, r.seq);
-    this.rxSeq = r.seq;
-    const frame = r as unknown as DeviceFrame;
+    if (this.rxSeq !== null) this.counters.seqGaps += seqGap(this.rxSeq, frame.seq);
+    this.rxSeq = frame.seq;
     if (frame.tag === 'IDENT') {
       this.onIdent(frame);
       return;
