@@ -16,7 +16,7 @@ import {
   type Snapshot,
 } from './api/messages.js';
 import { BenchController, ControlError } from './bench/controller.js';
-import { SampleRing, appendToBatch, thinBatch } from './bench/history.js';
+import { LiveBatch, SampleRing } from './bench/history.js';
 import { TelemetryPipeline, type Sample } from './bench/telemetry.js';
 import { startHttp, type HttpSurface } from './http/server.js';
 import { Hub, type Client } from './http/hub.js';
@@ -289,7 +289,7 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
   const history = new SampleRing(HISTORY_CAPACITY);
   const events: BenchEvent[] = [];
   const sampleListeners = new Set<(s: Sample, arrivedAt: number) => void>();
-  let pending: SampleBatch = emptyBatch();
+  const pending = new LiveBatch();
 
   const hub = new Hub({
     onConnect: (client) => snapshot(client),
@@ -413,7 +413,7 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     sessions?.addSample(s);
     for (const fn of sampleListeners) fn(s, arrivedAt);
     history.push(s);
-    appendToBatch(pending, s);
+    pending.add(s);
   });
   link.on('ready', (id) => {
     pipeline.reset();
@@ -475,10 +475,8 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
   loop.start();
 
   const flush = setInterval(() => {
-    if (pending.t.length === 0) return;
-    const batch = pending;
-    pending = emptyBatch();
-    hub.broadcast({ type: 'samples', batch: thinBatch(batch, LIVE_ROWS_PER_BATCH) });
+    if (pending.size === 0) return;
+    hub.broadcast({ type: 'samples', batch: pending.take(LIVE_ROWS_PER_BATCH) });
   }, BATCH_INTERVAL_MS);
   // Counters move all the time; send them once a second rather than on every line.
   const linkTick = setInterval(() => hub.broadcast({ type: 'link', link: link.view() }), 1000);

@@ -70,4 +70,38 @@ describe('live batch thinning', () => {
     expect(thin.thrust.filter((x) => x !== null)).toEqual([7, 257, 507, 757]);
     expect(thinBatch(b, 5000)).toBe(b); // under the cap: untouched
   });
+
+  it('the typed-array live batch gives what thinBatch gives on plain arrays, through growth and reuse', async () => {
+    const { thinBatch, appendToBatch, LiveBatch } = await import('../server/bench/history.js');
+    const { emptyBatch } = await import('../server/api/messages.js');
+    const live = new LiveBatch(16); // small, so it grows several times
+    for (const [n, cap] of [
+      [3000, 250],
+      [40, 250],
+      [1, 250],
+      [777, 100],
+    ] as const) {
+      const ref = emptyBatch();
+      for (let i = 0; i < n; i++) {
+        const s = {
+          t: 1e12 + i,
+          dt: i / 1000,
+          thrust: i % 37 === 0 ? -0.25 * i : null,
+          voltage: 16 - i * 1e-4,
+          current: i % 2 ? 3.5 : null,
+          power: i % 2 ? 56 : null,
+          rpm: i % 5 === 0 ? 9000 + i : null,
+          temp: null,
+          torque: i === n - 1 ? 0.01 : null,
+          out: 0,
+        };
+        appendToBatch(ref, s);
+        live.add(s);
+      }
+      expect(live.size).toBe(n);
+      expect(live.take(cap)).toEqual(thinBatch(ref, cap));
+      expect(live.size).toBe(0);
+    }
+    expect(live.take(250)).toEqual(emptyBatch());
+  });
 });
