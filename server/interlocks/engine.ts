@@ -150,6 +150,7 @@ export class Interlocks extends TypedEmitter<InterlockEvents> {
   private outputChangedAt = 0;
   private lastPredictionAt = -Infinity;
   private predicted: number | null = null;
+  private readonly speedOfSound: number;
 
   constructor(
     private readonly target: TripTarget,
@@ -161,6 +162,7 @@ export class Interlocks extends TypedEmitter<InterlockEvents> {
     this.now = opts.now ?? (() => performance.now());
     this.trend = new TrendWindow(opts.limits.vibration_window_s);
     this.cells = opts.cells ?? (opts.limits.cells > 0 ? opts.limits.cells : null);
+    this.speedOfSound = Math.sqrt(GAMMA_AIR * R_AIR * (opts.airTemperatureK ?? 288.15));
     const tick = opts.tickMs ?? 25;
     this.tickMs = tick;
     if (tick > 0) {
@@ -243,7 +245,6 @@ export class Interlocks extends TypedEmitter<InterlockEvents> {
   }
 
   private context(now: number, mayTurn: boolean): RuleContext {
-    const T = this.opts.airTemperatureK ?? 288.15;
     const first = this.badHistory[0];
     const last = this.badHistory[this.badHistory.length - 1];
     return {
@@ -255,7 +256,7 @@ export class Interlocks extends TypedEmitter<InterlockEvents> {
       outputZeroSince: this.outputZeroSince === null ? null : mayTurn && this.mayTurnSince !== null ? Math.max(this.outputZeroSince, this.mayTurnSince) : this.outputZeroSince,
       outputSteadyForMs: now - this.outputChangedAt,
       diameterM: this.opts.diameterM,
-      speedOfSound: Math.sqrt(GAMMA_AIR * R_AIR * T),
+      speedOfSound: this.speedOfSound,
       cells: this.cells,
       thrustDetrendedStd: this.trend.residualStd(8),
       gpwMeasured: this.steadyGpw(now),
@@ -269,7 +270,8 @@ export class Interlocks extends TypedEmitter<InterlockEvents> {
   /** Returns true when the finding tripped the bench. */
   private handle(rule: Rule, v: Verdict, now: number, arrivedAt: number, s: Sample | null, immediate = false): boolean {
     if (v === null) return false; // nothing to judge in this sample: a pending debounce keeps running
-    if (v === OK || v.level !== 'trip') this.exceededSince.delete(rule.name);
+    // Checked for size first: this runs for every rule on every sample, and nearly always nothing is pending.
+    if ((v === OK || v.level !== 'trip') && this.exceededSince.size > 0) this.exceededSince.delete(rule.name);
     if (v === OK) return false;
     const f: Finding = v;
     if (f.level === 'trip') {
