@@ -12,6 +12,7 @@
 // Started as: node producer.js PATH MODE COUNT RATE_HZ
 
 import { decodeLine, encodeLine } from '../firmware-protocol/src/codec.js';
+import { constants, openSync, writeSync } from 'node:fs';
 import { crc16, hex4 } from '../firmware-protocol/src/crc.js';
 import { LineSplitter } from '../firmware-protocol/src/lines.js';
 import type { FaultCode } from '../firmware-protocol/src/messages.js';
@@ -35,6 +36,12 @@ const next = () => {
 };
 
 const device = { armed: false, out: 0, fault: 'none' as FaultCode };
+// The flood is written through its own blocking descriptor, opened before SerialTransport takes the port's
+// exclusive lock (as the transport opens its read side). Through the transport, every 4 KB the pty accepts
+// cost a thread-pool write and a poll for writability: measured, the producer then burned more CPU than the
+// reader it fed, on a 2-core machine where every process shares the same cores, so it was the bottleneck.
+// A blocking write loops in the kernel instead. Commands are still read between blocks.
+const floodFd = openSync(path, constants.O_WRONLY | constants.O_NOCTTY);
 const transport = new SerialTransport(path, 115200);
 let started = false;
 const trips: ProducerTripReport = { type: 'trips', offendingWrittenAt: [], stopArrivedAt: [] };
@@ -157,7 +164,7 @@ function floodLines(): (i: number) => string {
 /** Lines written from memory before any is made on the fly (about 40 MB). */
 const PREBUILT_LINES = 600_000;
 const BLOCK_LINES = 2000;
-let prebuilt: string[] = [];
+let prebuilt: Buffer[] = [];
 let makeLine: ((i: number) => string) | null = null;
 
 function blockText(from: number, to: number): string {
@@ -170,13 +177,22 @@ function blockText(from: number, to: number): string {
 function prepareFlood(): void {
   makeLine = floodLines();
   const n = Math.min(count, PREBUILT_LINES);
-  for (let i = 0; i < n; i += BLOCK_LINES) prebuilt.push(blockText(i, Math.min(n, i + BLOCK_LINES)));
+  for (let i = 0; i < n; i += BLOCK_LINES) prebuilt.push(Buffer.from(blockText(i, Math.min(n, i + BLOCK_LINES)), 'latin1'));
 }
 
 async function flood(): Promise<void> {
-  for (const b of prebuilt) await transport.write(b).catch(() => {});
+  const write = async (b: Buffer) => {
+    try {
+      writeSync(floodFd, b);
+    } catch {
+      process.exit(0); // the reader's end is gone: nothing left to feed
+    }
+    // Let the commands the reader sends (ARM, heartbeats, STOP) be read between blocks.
+    await new Promise<void>((r) => setImmediate(r));
+  };
+  for (const b of prebuilt) await write(b);
   prebuilt = [];
-  for (let i = Math.min(count, PREBUILT_LINES); i < count; i += BLOCK_LINES) await transport.write(blockText(i, Math.min(count, i + BLOCK_LINES))).catch(() => {});
+  for (let i = Math.min(count, PREBUILT_LINES); i < count; i += BLOCK_LINES) await write(Buffer.from(blockText(i, Math.min(count, i + BLOCK_LINES)), 'latin1'));
 }
 
 function paced(): void {
