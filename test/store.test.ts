@@ -118,7 +118,7 @@ describe('session store', () => {
     expect(() => store.get(b)).toThrow(SessionNotFound);
     expect(() => store.delete(b)).toThrow(SessionNotFound);
     const raw = new Database(join(store.dataDir, DB_FILE), { readonly: true });
-    expect(raw.prepare('SELECT count(*) FROM samples').pluck().get()).toBe(0);
+    expect(raw.prepare('SELECT count(*) FROM sample_blocks').pluck().get()).toBe(0);
     expect(raw.prepare('SELECT count(*) FROM session_tags WHERE session_id = ?').pluck().get(b)).toBe(0);
     raw.close();
     store.close();

@@ -132,12 +132,11 @@ export function blockRow(f: Float64Array, n: number, i: number): SampleRow {
 
 // ------------------------------------------------------------------------------------------------ reading
 
-/** A stored block as the reader needs it; `id` is its rowid. */
-export interface StoredBlock {
+/** A stored block's index entry; `id` is its rowid. */
+export interface BlockEntry {
   id: number;
   t0: number;
   n: number;
-  data: Uint8Array;
 }
 
 /** One block's rows inside the window, in stable t order, being handed out. */
@@ -166,9 +165,9 @@ function less(a: Run, b: Run): boolean {
   return ta < tb || (ta === tb && a.id < b.id);
 }
 
-function openRun(b: StoredBlock, from: number, to: number, bigEndian: boolean): Run | null {
+function openRun(b: BlockEntry, data: Uint8Array, from: number, to: number, bigEndian: boolean): Run | null {
   const n = b.n;
-  const f = unpackBlock(b.data, n, bigEndian);
+  const f = unpackBlock(data, n, bigEndian);
   let kept = 0;
   let sorted = true;
   let prev = -Infinity;
@@ -242,9 +241,16 @@ class RunHeap {
 
 /**
  * Rows with from <= t < to from blocks given in (t0, rowid) order, in (t, rowid) order, in chunks of at most one
- * block's worth so that a long session streams through bounded memory.
+ * block's worth so that a long session streams through bounded memory. `load` fetches a block's blob when the
+ * merge reaches it, so only blocks that overlap in time are held at once.
  */
-export function* orderedRows(blocks: Iterable<StoredBlock>, from: number, to: number, bigEndian: boolean = HOST_BIG_ENDIAN): Generator<SampleRow[]> {
+export function* orderedRows(
+  blocks: Iterable<BlockEntry>,
+  load: (b: BlockEntry) => Uint8Array,
+  from: number,
+  to: number,
+  bigEndian: boolean = HOST_BIG_ENDIAN,
+): Generator<SampleRow[]> {
   const it = blocks[Symbol.iterator]();
   let next = it.next();
   const heap = new RunHeap();
@@ -252,7 +258,7 @@ export function* orderedRows(blocks: Iterable<StoredBlock>, from: number, to: nu
     for (;;) {
       // Open every block that may hold the next row: no unopened block has a row before its own (t0, rowid).
       while (!next.done && (heap.size === 0 || next.value.t0 < tAt(heap.a[0]) || (next.value.t0 === tAt(heap.a[0]) && next.value.id < heap.a[0].id))) {
-        const run = openRun(next.value, from, to, bigEndian);
+        const run = openRun(next.value, load(next.value), from, to, bigEndian);
         if (run) heap.push(run);
         next = it.next();
       }

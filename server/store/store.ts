@@ -11,6 +11,7 @@ import { join, resolve } from 'node:path';
 import type { SampleBatch } from '../api/messages.js';
 import type { OperatingPoint } from '../bench/operating-point.js';
 import type { Sample } from '../bench/telemetry.js';
+import { BLOCK_COLUMNS, blockRange, MAX_BLOCK_ROWS, orderedRows, packSamples, type BlockEntry } from './blocks.js';
 import { keepAll, minmaxDecimator, rowsToBatch, strideDecimator, type SampleRow } from './decimate.js';
 import { InvalidInput, SessionNotFound } from './errors.js';
 import { SessionRecorder, type RecorderOptions, type RecorderSink } from './recorder.js';
@@ -114,6 +115,8 @@ export class SessionStore {
   private readonly recorders = new Set<SessionRecorder>();
   private readonly now: () => number;
   private readonly st: ReturnType<SessionStore['prepare']>;
+  /** Where writeBatch packs a block before binding it (SQLite copies the blob, so one buffer serves every block). */
+  private readonly scratch = new Float64Array(MAX_BLOCK_ROWS * BLOCK_COLUMNS);
   private closed = false;
 
   private constructor(readonly db: Database.Database, dataDir: string, file: string, opts: StoreOptions) {
@@ -149,7 +152,6 @@ export class SessionStore {
 
   private prepare() {
     const db = this.db;
-    const cols = ['session_id', 't', 'dt', ...SAMPLE_COLUMNS];
     return {
       insertSession: db.prepare(
         `INSERT INTO sessions (title, notes, outcome, started_at, rig_name, rig_json, calibration_json, atmosphere_json, firmware_json, sequence_json, recorder_pid, heartbeat_at)
@@ -157,7 +159,7 @@ export class SessionStore {
       ),
       insertTag: db.prepare('INSERT OR IGNORE INTO session_tags (session_id, tag) VALUES (?, ?)'),
       deleteTag: db.prepare('DELETE FROM session_tags WHERE session_id = ? AND tag = ?'),
-      insertSample: db.prepare(`INSERT INTO samples (${cols.join(', ')}) VALUES (${cols.map(() => '?').join(', ')})`),
+      insertBlock: db.prepare('INSERT INTO sample_blocks (session_id, t0, t1, n, data) VALUES (?, ?, ?, ?, ?)'),
       insertPoint: db.prepare('INSERT INTO points (session_id, idx, throttle, thrust, power, t_start, json) VALUES (?, ?, ?, ?, ?, ?, ?)'),
       insertEvent: db.prepare('INSERT INTO events (session_id, t, level, kind, text, data_json) VALUES (?, ?, ?, ?, ?, ?)'),
       bumpCount: db.prepare('UPDATE sessions SET sample_count = sample_count + ?, heartbeat_at = ? WHERE id = ?'),
@@ -171,11 +173,17 @@ export class SessionStore {
       events: db.prepare('SELECT t, level, kind, text, data_json FROM events WHERE session_id = ? ORDER BY t, rowid'),
       running: db.prepare("SELECT id, recorder_pid, heartbeat_at, started_at FROM sessions WHERE outcome = 'running'"),
       lastTime: db.prepare(
-        `SELECT max(m) FROM (SELECT max(t) AS m FROM samples WHERE session_id = @id UNION ALL SELECT max(t) FROM events WHERE session_id = @id
+        `SELECT max(m) FROM (SELECT max(t1) AS m FROM sample_blocks WHERE session_id = @id UNION ALL SELECT max(t) FROM events WHERE session_id = @id
          UNION ALL SELECT max(t_start) FROM points WHERE session_id = @id)`,
       ).pluck(),
-      sampleRange: db.prepare('SELECT count(*) AS n, min(t) AS t0, max(t) AS t1 FROM samples WHERE session_id = ? AND t >= ? AND t < ?'),
-      sampleRows: db.prepare(`SELECT t, dt, ${SAMPLE_COLUMNS.join(', ')} FROM samples WHERE session_id = ? AND t >= ? AND t < ? ORDER BY t, rowid`).raw(),
+      // A window's count and bounds: blocks wholly inside it from the index alone, the (at most a few) blocks
+      // across its edges decoded.
+      rangeInside: db.prepare('SELECT coalesce(sum(n), 0) AS n, min(t0) AS t0, max(t1) AS t1 FROM sample_blocks WHERE session_id = ? AND t0 >= ? AND t1 < ?'),
+      rangeEdges: db.prepare('SELECT rowid AS id, n FROM sample_blocks WHERE session_id = @id AND t0 < @to AND t1 >= @from AND (t0 < @from OR t1 >= @to)'),
+      // The blocks of a window from the index alone, in the order orderedRows needs (SQLite sorts only runs of
+      // equal t0 by rowid); each blob is read when the merge reaches its block.
+      blocks: db.prepare('SELECT rowid AS id, t0, n FROM sample_blocks WHERE session_id = ? AND t0 < ? AND t1 >= ? ORDER BY t0, rowid'),
+      blockData: db.prepare('SELECT data FROM sample_blocks WHERE rowid = ?').pluck(),
       deleteSession: db.prepare('DELETE FROM sessions WHERE id = ?'),
     };
   }
@@ -266,11 +274,11 @@ export class SessionStore {
   writeBatch(id: number, samples: readonly Sample[], points: readonly OperatingPoint[] = [], events: readonly StoredEvent[] = []): void {
     this.assertOpen();
     const st = this.st;
+    const scratch = this.scratch;
     this.db.transaction(() => {
-      const ins = st.insertSample;
-      for (let i = 0; i < samples.length; i++) {
-        const s = samples[i];
-        ins.run(id, s.t, s.dt, s.thrust, s.voltage, s.current, s.power, s.rpm, s.temp, s.torque, s.out);
+      for (let i = 0; i < samples.length; i += MAX_BLOCK_ROWS) {
+        const b = packSamples(samples, i, Math.min(samples.length, i + MAX_BLOCK_ROWS), { scratch });
+        st.insertBlock.run(id, b.t0, b.t1, b.n, b.data);
       }
       // The count and the heartbeat ride in the same transaction as the rows they describe.
       st.bumpCount.run(samples.length, this.now(), id);
@@ -372,25 +380,46 @@ export class SessionStore {
     let dec = keepAll();
     if (d) {
       if (!(Number.isInteger(d.points) && d.points >= 2)) throw new InvalidInput('decimation needs at least 2 points');
-      const r = this.st.sampleRange.get(id, from, to) as { n: number; t0: number | null; t1: number | null };
+      const r = this.sampleRange(id, from, to);
       if (r.n > d.points) {
         if (d.method === 'stride') dec = strideDecimator(r.n, d.points);
         else {
           const col = SAMPLE_COLUMNS.indexOf(d.channel ?? 'thrust');
           if (col < 0) throw new InvalidInput(`unknown channel ${JSON.stringify(d.channel)}`);
-          dec = minmaxDecimator(r.t0 as number, r.t1 as number, d.points, col + 2);
+          dec = minmaxDecimator(r.t0, r.t1, d.points, col + 2);
         }
       }
     }
-    for (const row of this.st.sampleRows.iterate(id, from, to) as IterableIterator<SampleRow>) dec.push(row);
+    for (const chunk of this.rowChunks(id, from, to)) for (let i = 0; i < chunk.length; i++) dec.push(chunk[i]);
     return dec.finish();
   }
 
-  /** Streams every sample row of a session in time order (export). */
+  /** Streams every sample row of a session in time order (export), a block at a time. */
   *iterateSamples(id: number): IterableIterator<SampleRow> {
     this.assertOpen();
     if (!this.st.exists.get(id)) throw new SessionNotFound(id);
-    yield* this.st.sampleRows.iterate(id, -Infinity, Infinity) as IterableIterator<SampleRow>;
+    for (const chunk of this.rowChunks(id, -Infinity, Infinity)) yield* chunk;
+  }
+
+  /** Rows with from <= t < to in (t, insertion) order, the old `ORDER BY t, rowid`, in chunks of at most a block. */
+  private rowChunks(id: number, from: number, to: number): Generator<SampleRow[]> {
+    const data = this.st.blockData;
+    return orderedRows(this.st.blocks.iterate(id, to, from) as IterableIterator<BlockEntry>, (b) => data.get(b.id) as Uint8Array, from, to);
+  }
+
+  /** Count and smallest and largest t of the rows with from <= t < to (0 rows: t0 and t1 are infinite). */
+  private sampleRange(id: number, from: number, to: number): { n: number; t0: number; t1: number } {
+    const inside = this.st.rangeInside.get(id, from, to) as { n: number; t0: number | null; t1: number | null };
+    let n = inside.n;
+    let t0 = inside.t0 ?? Infinity;
+    let t1 = inside.t1 ?? -Infinity;
+    for (const e of this.st.rangeEdges.all({ id, from, to }) as { id: number; n: number }[]) {
+      const r = blockRange(this.st.blockData.get(e.id) as Uint8Array, e.n, from, to);
+      n += r.n;
+      if (r.t0 < t0) t0 = r.t0;
+      if (r.t1 > t1) t1 = r.t1;
+    }
+    return { n, t0, t1 };
   }
 
   update(id: number, patch: SessionPatch): SessionSummary {
