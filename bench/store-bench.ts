@@ -1,7 +1,12 @@
 // Session store benchmark: batched sample inserts through the recorder beside two baselines measured in the same
-// run (the same rows one per transaction, and a bare prepared INSERT loop in one transaction without the
-// recorder), and comparing two one-hour sessions read back from the store. Targets: >= 200,000 samples/s,
-// <= 200 ms for the comparison. Numbers only; nothing here asserts.
+// run, and comparing two one-hour sessions read back from the store. Targets: >= 200,000 samples/s, <= 200 ms
+// for the comparison. Numbers only; nothing here asserts.
+//
+// Samples are stored in blocks (server/store/blocks.ts). The baselines: the same rows one per transaction
+// through writeBatch (what an unbuffered recorder would do: one block per sample), and the layout blocks
+// replaced, one SQLite row per sample, as a bare prepared INSERT loop in one transaction into a table of that
+// layout (with its index) in a fresh file beside the others. That loop was the old writeBatch's whole cost per
+// sample, and it was once the ceiling the recorder approached; the recorder over it is now the gain of blocks.
 
 import { mkdtempSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
@@ -16,8 +21,13 @@ export interface StoreBenchResult {
   insert_samples_per_s: number;
   /** Baseline: the same rows, one transaction each (what an unbuffered recorder would do). */
   baseline_one_per_transaction_samples_per_s: number;
-  /** Baseline: a bare prepared INSERT loop in one big transaction, no recorder (the ceiling). */
+  /** Baseline: the old one-row-per-sample layout, a bare prepared INSERT loop in one big transaction, no recorder. */
   baseline_plain_loop_samples_per_s: number;
+  /**
+   * writeBatch alone on 100 batches of 4096 samples built beforehand, microseconds per sample, including the WAL
+   * checkpoints SQLite runs inside the commits (bench/run.ts does not print it; benchStore() returns it).
+   */
+  write_batch_us_per_sample: number;
   /** Read two one-hour sessions (context and points) and compare them with a hover verdict; median of runs. */
   compare_two_hour_sessions_ms: number;
   samples_per_session: number;
@@ -82,6 +92,16 @@ export async function benchStore(): Promise<StoreBenchResult> {
 
     const plain = SessionStore.open(join(dir, 'plain'));
     const plainId = plain.createSession({ title: 'baseline: plain loop' }, 'completed');
+    // The table and index as schema migration 1 made them, before samples moved into blocks.
+    plain.db.exec(`
+      CREATE TABLE samples (
+        session_id INTEGER NOT NULL REFERENCES sessions (id) ON DELETE CASCADE,
+        t REAL NOT NULL,
+        dt REAL,
+        thrust REAL, voltage REAL, current REAL, power REAL, rpm REAL, temp REAL, torque REAL, out REAL
+      );
+      CREATE INDEX samples_session_t ON samples (session_id, t);
+    `);
     const ins = plain.db.prepare('INSERT INTO samples (session_id, t, dt, thrust, voltage, current, power, rpm, temp, torque, out) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)');
     const PLAIN_N = 400_000;
     start = performance.now();
@@ -93,6 +113,15 @@ export async function benchStore(): Promise<StoreBenchResult> {
     })();
     const plainRate = PLAIN_N / ((performance.now() - start) / 1000);
     plain.close();
+
+    const wb = SessionStore.open(join(dir, 'write-batch'));
+    const wbId = wb.createSession({ title: 'writeBatch alone' }, 'completed');
+    const WB_BATCHES = 100;
+    const batches = Array.from({ length: WB_BATCHES }, (_, b) => Array.from({ length: 4096 }, (_, i) => makeSample(b * 4096 + i, t0)));
+    start = performance.now();
+    for (const batch of batches) wb.writeBatch(wbId, batch);
+    const wbUs = ((performance.now() - start) * 1000) / (WB_BATCHES * 4096);
+    wb.close();
 
     const store = SessionStore.open(join(dir, 'main'));
     const a = hourSession(store, null, t0);
@@ -112,6 +141,7 @@ export async function benchStore(): Promise<StoreBenchResult> {
       insert_samples_per_s: insertRate,
       baseline_one_per_transaction_samples_per_s: onePerTx,
       baseline_plain_loop_samples_per_s: plainRate,
+      write_batch_us_per_sample: wbUs,
       compare_two_hour_sessions_ms: median(times),
       samples_per_session: a.samples,
       points_per_session: a.points,
