@@ -163,6 +163,23 @@ export class Interlocks extends TypedEmitter<InterlockEvents> {
     this.trend = new TrendWindow(opts.limits.vibration_window_s);
     this.cells = opts.cells ?? (opts.limits.cells > 0 ? opts.limits.cells : null);
     this.speedOfSound = Math.sqrt(GAMMA_AIR * R_AIR * (opts.airTemperatureK ?? 288.15));
+    this.ctx = {
+      limits: this.limits,
+      now: 0,
+      mayTurn: false,
+      output: 0,
+      outputZeroSince: null,
+      outputSteadyForMs: 0,
+      diameterM: opts.diameterM,
+      speedOfSound: this.speedOfSound,
+      cells: this.cells,
+      thrustDetrendedStd: null,
+      gpwMeasured: null,
+      gpwPredicted: null,
+      lastFrameAt: null,
+      lastThrustAt: null,
+      badLinesLastSecond: 0,
+    };
     const tick = opts.tickMs ?? 25;
     this.tickMs = tick;
     if (tick > 0) {
@@ -244,27 +261,34 @@ export class Interlocks extends TypedEmitter<InterlockEvents> {
     return st === 'armed' || st === 'running';
   }
 
+  /**
+   * The context the rules read, filled in place: one object for the engine's life rather than one per sample
+   * (at hundreds of thousands of samples a second the allocation showed in the ingest profile). Rules only
+   * read it during their call and keep nothing of it.
+   */
+  private readonly ctx: RuleContext;
+
   private context(now: number, mayTurn: boolean): RuleContext {
     const first = this.badHistory[0];
     const last = this.badHistory[this.badHistory.length - 1];
-    return {
-      limits: this.limits,
-      now,
-      mayTurn,
-      output: this.output,
-      // Armed, the zero-output clock starts at the arming: the spin-down and the arming itself are not a loose rig.
-      outputZeroSince: this.outputZeroSince === null ? null : mayTurn && this.mayTurnSince !== null ? Math.max(this.outputZeroSince, this.mayTurnSince) : this.outputZeroSince,
-      outputSteadyForMs: now - this.outputChangedAt,
-      diameterM: this.opts.diameterM,
-      speedOfSound: this.speedOfSound,
-      cells: this.cells,
-      thrustDetrendedStd: this.trend.residualStd(8),
-      gpwMeasured: this.steadyGpw(now),
-      gpwPredicted: this.predicted,
-      lastFrameAt: this.lastFrameAt,
-      lastThrustAt: this.lastThrustAt,
-      badLinesLastSecond: first && last ? last.total - first.total : 0,
-    };
+    const c = this.ctx;
+    c.limits = this.limits;
+    c.now = now;
+    c.mayTurn = mayTurn;
+    c.output = this.output;
+    // Armed, the zero-output clock starts at the arming: the spin-down and the arming itself are not a loose rig.
+    c.outputZeroSince = this.outputZeroSince === null ? null : mayTurn && this.mayTurnSince !== null ? Math.max(this.outputZeroSince, this.mayTurnSince) : this.outputZeroSince;
+    c.outputSteadyForMs = now - this.outputChangedAt;
+    c.diameterM = this.opts.diameterM;
+    c.speedOfSound = this.speedOfSound;
+    c.cells = this.cells;
+    c.thrustDetrendedStd = this.trend.residualStd(8);
+    c.gpwMeasured = this.steadyGpw(now);
+    c.gpwPredicted = this.predicted;
+    c.lastFrameAt = this.lastFrameAt;
+    c.lastThrustAt = this.lastThrustAt;
+    c.badLinesLastSecond = first && last ? last.total - first.total : 0;
+    return c;
   }
 
   /** Returns true when the finding tripped the bench. */
