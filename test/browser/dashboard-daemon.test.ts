@@ -250,19 +250,29 @@ describe('sequences, sessions and comparison from the dashboard', () => {
   it('the stop button mid-run cuts the output and ends the run', async () => {
     const { page } = opened;
     await fillStaircase(page);
+    // Long holds: the stop must land mid-run even when each round trip to a busy page takes seconds.
+    await page.getByTestId('stair-hold_s').fill('8');
+    await page.getByTestId('stair-hold_s').dispatchEvent('change');
     await page.getByTestId('seq-title').fill('stopped by button');
+    // Seen by a listener, not only by polling: a slow poll must not miss the spin-up.
+    let spun = false;
+    const offSpun = d2.controller.on('transition', (tr) => {
+      if (tr.to === 'running') spun = true;
+    });
     // A run ended by the device's own heartbeat latch before it spun up (the test machine stalled) is cleared
     // and started again, at most twice.
     for (let attempt = 0; ; attempt++) {
+      spun = false;
       await startAndWait(page);
       const up = await eventually(
-        async () => (d2.sim!.state.output > 0.2 ? 'spinning' : d2.controller.view().fault === 'heartbeat' ? 'heartbeat' : 'waiting'),
-        (v) => v !== 'waiting',
+        async () => (spun && d2.sim!.state.output > 0.2 ? 'spinning' : d2.controller.view().fault === 'heartbeat' ? 'heartbeat' : `waiting (${d2.controller.state}, output ${d2.sim!.state.output})`),
+        (v) => !v.startsWith('waiting'),
         'spinning',
       );
       if (up === 'spinning' || attempt >= 2) break;
       await eventually(() => runAttr(page, 'data-live'), (v) => v !== 'true', 'the latched run to end');
     }
+    offSpun();
     expect(d2.sim!.state.output).toBeGreaterThan(0.2);
     await page.getByTestId('stop').click();
     await eventually(async () => d2.sim!.state.output, (o) => o === 0, 'output cut by the stop button');
