@@ -4,14 +4,35 @@
 import { emptyBatch, type SampleBatch, type SampleChannel } from '../api/messages.js';
 import { SAMPLE_KEYS, type Sample } from './telemetry.js';
 
+type Columns = Record<'t' | 'dt' | SampleChannel, Float64Array>;
+
+function columns(n: number): Columns {
+  const mk = () => new Float64Array(n);
+  return { t: mk(), dt: mk(), thrust: mk(), voltage: mk(), current: mk(), power: mk(), rpm: mk(), temp: mk(), torque: mk(), out: mk() };
+}
+
+/** Writes sample s as row i, NaN for "not sampled". */
+function writeRow(c: Columns, i: number, s: Sample): void {
+  // Written out per channel rather than looped over SAMPLE_KEYS: this runs for every line at telemetry rates.
+  c.t[i] = s.t;
+  c.dt[i] = s.dt;
+  c.thrust[i] = s.thrust ?? NaN;
+  c.voltage[i] = s.voltage ?? NaN;
+  c.current[i] = s.current ?? NaN;
+  c.power[i] = s.power ?? NaN;
+  c.rpm[i] = s.rpm ?? NaN;
+  c.temp[i] = s.temp ?? NaN;
+  c.torque[i] = s.torque ?? NaN;
+  c.out[i] = s.out ?? NaN;
+}
+
 export class SampleRing {
-  private readonly cols: Record<'t' | 'dt' | SampleChannel, Float64Array>;
+  private readonly cols: Columns;
   private head = 0;
   private count = 0;
 
   constructor(readonly capacity: number) {
-    const mk = () => new Float64Array(capacity);
-    this.cols = { t: mk(), dt: mk(), thrust: mk(), voltage: mk(), current: mk(), power: mk(), rpm: mk(), temp: mk(), torque: mk(), out: mk() };
+    this.cols = columns(capacity);
   }
 
   get size(): number {
@@ -20,18 +41,7 @@ export class SampleRing {
 
   push(s: Sample): void {
     const i = this.head;
-    const c = this.cols;
-    // Written out per channel rather than looped over SAMPLE_KEYS: this runs for every line at telemetry rates.
-    c.t[i] = s.t;
-    c.dt[i] = s.dt;
-    c.thrust[i] = s.thrust ?? NaN;
-    c.voltage[i] = s.voltage ?? NaN;
-    c.current[i] = s.current ?? NaN;
-    c.power[i] = s.power ?? NaN;
-    c.rpm[i] = s.rpm ?? NaN;
-    c.temp[i] = s.temp ?? NaN;
-    c.torque[i] = s.torque ?? NaN;
-    c.out[i] = s.out ?? NaN;
+    writeRow(this.cols, i, s);
     this.head = i + 1 === this.capacity ? 0 : i + 1;
     if (this.count < this.capacity) this.count++;
   }
@@ -74,16 +84,11 @@ export class SampleRing {
  * that garbage was a measurable share of the ingest profile. take() thins and converts once per broadcast.
  */
 export class LiveBatch {
-  private cols: Record<'t' | 'dt' | SampleChannel, Float64Array>;
+  private cols: Columns;
   private n = 0;
 
   constructor(private capacity = 1024) {
-    this.cols = LiveBatch.columns(capacity);
-  }
-
-  private static columns(n: number): Record<'t' | 'dt' | SampleChannel, Float64Array> {
-    const mk = () => new Float64Array(n);
-    return { t: mk(), dt: mk(), thrust: mk(), voltage: mk(), current: mk(), power: mk(), rpm: mk(), temp: mk(), torque: mk(), out: mk() };
+    this.cols = columns(capacity);
   }
 
   get size(): number {
@@ -92,18 +97,7 @@ export class LiveBatch {
 
   add(s: Sample): void {
     if (this.n === this.capacity) this.grow();
-    const i = this.n++;
-    const c = this.cols;
-    c.t[i] = s.t;
-    c.dt[i] = s.dt;
-    c.thrust[i] = s.thrust ?? NaN;
-    c.voltage[i] = s.voltage ?? NaN;
-    c.current[i] = s.current ?? NaN;
-    c.power[i] = s.power ?? NaN;
-    c.rpm[i] = s.rpm ?? NaN;
-    c.temp[i] = s.temp ?? NaN;
-    c.torque[i] = s.torque ?? NaN;
-    c.out[i] = s.out ?? NaN;
+    writeRow(this.cols, this.n++, s);
   }
 
   /**
@@ -137,7 +131,7 @@ export class LiveBatch {
   }
 
   private grow(): void {
-    const bigger = LiveBatch.columns(this.capacity * 2);
+    const bigger = columns(this.capacity * 2);
     for (const k of Object.keys(bigger) as (keyof typeof bigger)[]) bigger[k].set(this.cols[k]);
     this.cols = bigger;
     this.capacity *= 2;
