@@ -395,9 +395,9 @@ describe('warnings and refusals about the calibration itself', () => {
 
   it('a current scale against a meter, with a known current through the sensor', async () => {
     // A known 2 A through the sensor with the motor still: a virtual bench whose ESC draws 2 A at rest stands
-    // in for the lab supply and load resistor (the invented Kestrel rig of examples/rigs).
+    // in for the lab supply and load resistor (the invented Quorrel rig of examples/rigs).
     const dir = await tempDir();
-    const rig = JSON.parse(await readFile(new URL('../examples/rigs/kestrel-open.json', import.meta.url), 'utf8')) as Record<string, unknown>;
+    const rig = JSON.parse(await readFile(new URL('../examples/rigs/quorrel-open.json', import.meta.url), 'utf8')) as Record<string, unknown>;
     const rigFile = join(dir, 'rig-with-standing-load.json');
     await writeFile(rigFile, JSON.stringify({ ...rig, sim: { esc_idle_current_a: 2 } }));
     const d = await startDaemon({ source: { kind: 'sim', rigFile, seed: 8 }, httpPort: 0, dataDir: dir, calibrationWorkflow: WINDOWS, log: () => {} });

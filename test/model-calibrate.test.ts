@@ -17,8 +17,8 @@ import {
 } from '../server/model/index.js';
 
 const rig = (name: string): RigSpec => parseRig(JSON.parse(readFileSync(new URL(`../examples/rigs/${name}`, import.meta.url), 'utf8')));
-const openRig = rig('kestrel-open.json');
-const ductRig = rig('kestrel-duct.json');
+const openRig = rig('quorrel-open.json');
+const ductRig = rig('quorrel-duct.json');
 
 /** Seeded normal deviates (Park-Miller + Box-Muller) so the synthetic noise is the same on every run. */
 function gaussian(seed: number): () => number {

@@ -3,10 +3,10 @@ import { describe, expect, it } from 'vitest';
 import { predictMain } from '../server/cli/predict.js';
 
 const files: Record<string, string> = {
-  'kestrel-open.json': readFileSync(new URL('../examples/rigs/kestrel-open.json', import.meta.url), 'utf8'),
-  'kestrel-duct.json': readFileSync(new URL('../examples/rigs/kestrel-duct.json', import.meta.url), 'utf8'),
+  'quorrel-open.json': readFileSync(new URL('../examples/rigs/quorrel-open.json', import.meta.url), 'utf8'),
+  'quorrel-duct.json': readFileSync(new URL('../examples/rigs/quorrel-duct.json', import.meta.url), 'utf8'),
   'typo.json': JSON.stringify({
-    ...JSON.parse(readFileSync(new URL('../examples/rigs/kestrel-duct.json', import.meta.url), 'utf8')),
+    ...JSON.parse(readFileSync(new URL('../examples/rigs/quorrel-duct.json', import.meta.url), 'utf8')),
     duct: { bore_diameter_m: 0.25, inlet_lip_radius_m: 0.01, exit_diameter_m: 0.266, length_m: 0.09, mass_kg: 0.08 },
   }),
   'broken.json': '{ "name": ',
@@ -53,7 +53,7 @@ describe('ductbench predict', () => {
   });
 
   it('rig JSON has the full shape, by throttle and by thrust', async () => {
-    const r = await run(['--rig', 'kestrel-duct.json', '--throttle', '0.3,0.6,0.9', '--json']);
+    const r = await run(['--rig', 'quorrel-duct.json', '--throttle', '0.3,0.6,0.9', '--json']);
     expect(r.code).toBe(0);
     const j = JSON.parse(r.out);
     expect(j.points).toHaveLength(3);
@@ -63,7 +63,7 @@ describe('ductbench predict', () => {
       expect(p.ideal_power_ducted_W).toBeLessThan(p.ideal_power_open_W);
     }
     expect(j.points.map((p: { throttle: number }) => p.throttle)).toEqual([0.3, 0.6, 0.9]);
-    const t = JSON.parse((await run(['--rig', 'kestrel-open.json', '--thrust', '4,500', '--json'])).out);
+    const t = JSON.parse((await run(['--rig', 'quorrel-open.json', '--thrust', '4,500', '--json'])).out);
     expect(t.points[0].thrust_N).toBe(4);
     expect(t.points[0].throttle).toBeGreaterThan(0);
     expect(t.points[0].throttle).toBeLessThan(1);
@@ -73,10 +73,10 @@ describe('ductbench predict', () => {
   });
 
   it('prints a readable table without --json', async () => {
-    const r = await run(['--rig', 'kestrel-open.json']);
+    const r = await run(['--rig', 'quorrel-open.json']);
     expect(r.code).toBe(0);
     const lines = r.out.trim().split('\n');
-    expect(lines[0]).toMatch(/kestrel-open/);
+    expect(lines[0]).toMatch(/quorrel-open/);
     expect(lines[1]).toMatch(/thrust N/);
     expect(lines).toHaveLength(12);
     const help = await run(['--help']);
@@ -93,8 +93,8 @@ describe('ductbench predict', () => {
     [['--prop-diameter', '0.254', '--thrust', '5', '--throttle', '0.5'], /--throttle: give either/],
     [['--prop-diameter', '0.254', '--thrust', '5', '--altitude', '1000', '--density', '1.1'], /--density: give either --altitude or --density/],
     [['--prop-diameter', '0.254', '--altitude', '20000', '--thrust', '5'], /--altitude: must be .*-1000\.\.11000/],
-    [['--rig', 'kestrel-open.json', '--throttle', '1.5'], /--throttle: must be .*0\.\.1/],
-    [['--rig', 'kestrel-open.json', '--prop-diameter', '0.3'], /--prop-diameter: only for what-if/],
+    [['--rig', 'quorrel-open.json', '--throttle', '1.5'], /--throttle: must be .*0\.\.1/],
+    [['--rig', 'quorrel-open.json', '--prop-diameter', '0.3'], /--prop-diameter: only for what-if/],
     [['--rig', 'typo.json'], /typo\.json: duct\.bore_diameter_m: must be larger than propeller\.diameter_m \(0\.254\)/],
     [['--rig', 'broken.json'], /--rig: broken\.json is not valid JSON/],
     [['--rig', 'missing.json'], /--rig: cannot read missing\.json/],

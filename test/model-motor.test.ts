@@ -62,14 +62,14 @@ describe('first-order DC motor, worked example', () => {
 describe('operating point', () => {
   const load = quadraticLoad(2e-8 * 60, 1.2e-5 * 10);
   const dt: Drivetrain = {
-    motor: { kv_rpm_per_v: 920, resistance_ohm: 0.115, noLoadCurrent_a: 0.6, noLoadVoltage_v: 10 },
+    motor: { kv_rpm_per_v: 860, resistance_ohm: 0.115, noLoadCurrent_a: 0.6, noLoadVoltage_v: 10 },
     esc: { efficiency: 0.95 },
     supply: { openCircuit_v: 16.8, internalResistance_ohm: 0.05 },
   };
 
   it('balances torque and conserves energy', () => {
     const op = solveOperatingPoint(dt, load, 0.7);
-    const kv = (920 * Math.PI) / 30;
+    const kv = (860 * Math.PI) / 30;
     expect((op.motorCurrent_A - 0.6) / kv).toBeCloseTo(load.torqueAt((op.rpm * Math.PI) / 30), 10);
     // Bus power = shaft + copper + no-load + ESC losses.
     const motorIn = op.motorVoltage_V * op.motorCurrent_A;

@@ -14,8 +14,8 @@ import {
 } from '../server/model/index.js';
 
 const rig = (name: string): RigSpec => parseRig(JSON.parse(readFileSync(new URL(`../examples/rigs/${name}`, import.meta.url), 'utf8')));
-const openRig = rig('kestrel-open.json');
-const ductRig = rig('kestrel-duct.json');
+const openRig = rig('quorrel-open.json');
+const ductRig = rig('quorrel-duct.json');
 
 describe('prediction curve', () => {
   const open = predictCurve(buildRigModel(openRig), { points: 50 });
@@ -58,7 +58,7 @@ describe('prediction curve', () => {
     expect(q.idealPowerDucted_W).toBeCloseTo(idealPowerDucted(q.thrust_N, 1.225000018, Math.PI * 0.127 ** 2, 1.10002108), 6);
   });
 
-  it('a realistic 10-inch, 920 Kv, 4S set: about 1.2 to 1.8 kgf at full throttle, 15 to 35 A', () => {
+  it('a realistic 10-inch, 860 Kv, 4S set: about 1.2 to 1.8 kgf at full throttle, 15 to 35 A', () => {
     // Common practice for this class of propeller and motor.
     const full = open.points[49];
     expect(full.thrust_N / 9.80665).toBeGreaterThan(1.2);

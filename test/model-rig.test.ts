@@ -3,8 +3,8 @@ import { describe, expect, it } from 'vitest';
 import { parseRig, rigGeometry, RigError } from '../server/model/index.js';
 
 const load = (name: string): unknown => JSON.parse(readFileSync(new URL(`../examples/rigs/${name}`, import.meta.url), 'utf8'));
-const open = load('kestrel-open.json') as Record<string, any>;
-const duct = load('kestrel-duct.json') as Record<string, any>;
+const open = load('quorrel-open.json') as Record<string, any>;
+const duct = load('quorrel-duct.json') as Record<string, any>;
 
 /** A deep copy of the ducted example with one change applied. */
 function variant(change: (r: Record<string, any>) => void, base: Record<string, any> = duct): unknown {
@@ -24,7 +24,7 @@ function errorOf(json: unknown): RigError {
 }
 
 describe('parseRig on the examples', () => {
-  it('accepts both Kestrel rigs and keeps their values', () => {
+  it('accepts both Quorrel rigs and keeps their values', () => {
     const o = parseRig(open);
     const d = parseRig(duct);
     expect(o.duct).toBeNull();

@@ -94,7 +94,7 @@ describe('ductbench run: on the virtual bench', () => {
 
   it('--json on a completed run: the documented shape, exit 0', async () => {
     const recorded: { points: number; transitions: number; finished: string | null; tags: string[] } = { points: 0, transitions: 0, finished: null, tags: [] };
-    const r = await run([...QUICK, '--json', '--tag', 'baseline', '--tag', 'kestrel'], {
+    const r = await run([...QUICK, '--json', '--tag', 'baseline', '--tag', 'quorrel'], {
       record: (ctx) => {
         recorded.tags = ctx.tags;
         return { onPoint: () => recorded.points++, onTransition: () => recorded.transitions++, finish: (res) => void (recorded.finished = res.outcome) };
@@ -116,8 +116,8 @@ describe('ductbench run: on the virtual bench', () => {
       expect(p.figure_of_merit).toBeGreaterThan(0);
       expect(p.figure_of_merit).toBeLessThan(1);
     }
-    expect(out.tags).toEqual(['baseline', 'kestrel']);
-    expect(recorded).toEqual({ points: 3, transitions: (out.transitions as unknown[]).length, finished: 'completed', tags: ['baseline', 'kestrel'] });
+    expect(out.tags).toEqual(['baseline', 'quorrel']);
+    expect(recorded).toEqual({ points: 3, transitions: (out.transitions as unknown[]).length, finished: 'completed', tags: ['baseline', 'quorrel'] });
     expect(out.sequence).toEqual({ name: 'staircase 0.2 to 0.4 by 0.1', steps: 3 });
     expect((out.device as { firmware: string }).firmware).toBe('vbench');
     // progress on stderr, nothing but the JSON on stdout

@@ -36,7 +36,7 @@ it('opens a v1 file, keeps its data and applies the later steps', () => {
   expect(schemaVersion(v1)).toBe(1);
   // Written with the v1 layout only (no sample_count column yet), as the first release would have.
   const id = Number(
-    v1.prepare("INSERT INTO sessions (title, notes, outcome, started_at, ended_at, rig_name) VALUES ('Old sweep', 'first bench', 'completed', 1000, 5000, 'Kestrel open')").run()
+    v1.prepare("INSERT INTO sessions (title, notes, outcome, started_at, ended_at, rig_name) VALUES ('Old sweep', 'first bench', 'completed', 1000, 5000, 'Quorrel open')").run()
       .lastInsertRowid,
   );
   v1.prepare('INSERT INTO session_tags (session_id, tag) VALUES (?, ?)').run(id, 'legacy');
@@ -51,7 +51,7 @@ it('opens a v1 file, keeps its data and applies the later steps', () => {
   const s = store.get(id);
   expect(s.title).toBe('Old sweep');
   expect(s.tags).toEqual(['legacy']);
-  expect(s.rig_name).toBe('Kestrel open');
+  expect(s.rig_name).toBe('Quorrel open');
   // Migration 2 backfilled the count from the rows that were there.
   expect(s.sample_count).toBe(25);
   expect(s.events.map((e) => e.text)).toEqual(['lip sanded']);
@@ -97,7 +97,7 @@ const COLS = `t, dt, ${SAMPLE_COLUMNS.join(', ')}`;
  */
 function fillOldSamples(db: Database.Database, withCount: boolean): Map<number, SampleRow[]> {
   const session = db.prepare(
-    `INSERT INTO sessions (title, outcome, started_at, ended_at, rig_name) VALUES (?, 'completed', 1000, 90000, 'Kestrel ducted')`,
+    `INSERT INTO sessions (title, outcome, started_at, ended_at, rig_name) VALUES (?, 'completed', 1000, 90000, 'Quorrel ducted')`,
   );
   const ins = db.prepare(`INSERT INTO samples (session_id, ${COLS}) VALUES (?, ${SAMPLE_COLUMNS.map(() => '?').join(', ')}, ?, ?)`);
   const row = (i: number, t: number): SampleRow => [

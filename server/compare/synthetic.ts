@@ -65,6 +65,6 @@ export function idealSession(spec: IdealSessionSpec): CompareInput {
       deviation_pct: null,
     };
   });
-  const name = spec.sigma === null ? 'Kestrel open 10-inch' : `Kestrel ducted 10-inch sigma ${spec.sigma}`;
+  const name = spec.sigma === null ? 'Quorrel open 10-inch' : `Quorrel ducted 10-inch sigma ${spec.sigma}`;
   return { id: spec.id, title: spec.title ?? name, rig: idealRig(name, D, spec.sigma, spec.duct_mass_kg ?? 0), points };
 }

@@ -6,7 +6,7 @@
 import type { RigSpec } from '../model/rig-types.js';
 
 export const DEFAULT_OPEN_RIG: RigSpec = {
-  name: 'Heron Lab open 10x4.5',
+  name: 'Millrace Lab open 10x4.5',
   description: 'Invented demo rig: 0.254 m two-blade propeller, 750 rpm/V outrunner, 4S 2200 mAh pack, open (no duct).',
   propeller: { diameter_m: 0.254, pitch_m: 0.1143, blades: 2, mass_kg: 0.016 },
   motor: { kv_rpm_per_v: 750, resistance_ohm: 0.085, no_load_current_a: 0.7, no_load_voltage_v: 10, mass_kg: 0.075 },
@@ -21,7 +21,7 @@ export const DEFAULT_OPEN_RIG: RigSpec = {
  */
 export const DEFAULT_DUCTED_RIG: RigSpec = {
   ...DEFAULT_OPEN_RIG,
-  name: 'Heron Lab ducted 10x4.5',
+  name: 'Millrace Lab ducted 10x4.5',
   description: 'Invented demo rig: the open rig in a 0.8 mm-clearance duct with an 18 mm lip and a short diffuser.',
   duct: {
     bore_diameter_m: 0.2556,

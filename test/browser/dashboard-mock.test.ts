@@ -2,7 +2,7 @@
 // a snapshot on every connect, then sample batches every 50 ms with a moving thrust. Checks that the charts
 // and readouts really update, that the stop button, Space and Escape each send {type:'stop'}, that a viewer
 // gets disabled controls, how a bad token is reported, and that a dropped socket is re-synced.
-// The bench in the mock is invented (a 10-inch propeller on a 4-cell pack, "Kestrel test cell").
+// The bench in the mock is invented (a 10-inch propeller on a 4-cell pack, "Quorrel test cell").
 
 import { createServer, type IncomingMessage, type Server, type ServerResponse } from 'node:http';
 import { mkdir, readFile, rm } from 'node:fs/promises';
@@ -177,7 +177,7 @@ class MockDaemon {
       link: this.link(),
       identity: {
         protocol: 1,
-        firmware: 'kestrel-cell',
+        firmware: 'quorrel-cell',
         firmwareVersion: '0.4.2',
         channels: { thrust: 200, voltage: 200, current: 200, rpm: 40, temp: 2 },
         throttleCeiling: 0.8,
