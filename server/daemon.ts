@@ -37,6 +37,8 @@ import { buildRigModel, predictAtThrottle, predictCurve, rigGeometry, type RigMo
 import { SequenceService, loadExamples } from './bench/sequence-service.js';
 import { CalibrationService, type CalibrationServiceDeps } from './bench/calibration-service.js';
 import { sessionsApi } from './http/sessions-api.js';
+import { ZeroService, ZERO_DRIFT_TAG } from './bench/zero-service.js';
+import type { ZeroRules } from './bench/zero.js';
 import type { PredictFn, RunnerOptions } from './sequence/index.js';
 
 export const DEFAULT_HTTP_PORT = 8470;
@@ -79,6 +81,8 @@ export interface DaemonOptions {
   sequenceRunner?: Partial<RunnerOptions>;
   /** Measurement windows of calibrations from a dashboard (tests use short ones). */
   calibrationWorkflow?: CalibrationServiceDeps['workflow'];
+  /** Rules of the zero step before every run (tests: shorter windows, a tighter drift limit). */
+  zeroRules?: Partial<ZeroRules>;
   log?: (line: string) => void;
 }
 
@@ -123,6 +127,8 @@ export interface RunningDaemon {
   controller: BenchController;
   interlocks: Interlocks;
   hub: Hub;
+  /** The zero step before every run and the zero's drift over it. */
+  zero: ZeroService;
   /** Session recording, when a data folder was given. */
   sessions: SessionKeeper | null;
   /** Sequences started from a dashboard (one at a time). */
@@ -268,7 +274,10 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     tell: (e) => tell(e),
     ...(opts.sequenceRunner ? { runner: opts.sequenceRunner } : {}),
   });
-  sequences.on('run', (run) => hub.broadcast({ type: 'run', run }));
+  sequences.on('run', (run) => {
+    hub.broadcast({ type: 'run', run });
+    if (run.outcome !== null) zero.afterRun();
+  });
   sequences.on('point', ({ run, point }) => hub.broadcast({ type: 'run_point', run, point }));
   // The pre-arm checklist is confirmed once per daemon session, by a controlling dashboard. The CLI and
   // in-process callers of controller.arm() are not dashboards and have their own acknowledgement.
@@ -285,6 +294,7 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     checklist: checklistView(),
     sequences: sequences.examples(),
     ...calibration.extras(),
+    zero: zero.view(),
   });
   const history = new SampleRing(HISTORY_CAPACITY);
   const events: BenchEvent[] = [];
@@ -318,6 +328,7 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     unavailable: calibrationHistory ? null : calibrationUnavailable,
     setCalibration: (c) => {
       pipeline.calibration = c;
+      zero.resetOffset('a new calibration is in force (it carries its own offset)');
     },
     onSample: (fn) => {
       sampleListeners.add(fn);
@@ -328,6 +339,34 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
   });
   calibration.on('status', (v) => hub.broadcast({ type: 'extras', extras: { calibration: v } }));
   calibration.on('history', (v) => hub.broadcast({ type: 'extras', extras: { calibration_history: v } }));
+
+  // Zero before every run: the pipeline takes the offset off every calibrated thrust reading.
+  const zero = new ZeroService({
+    controller,
+    onSample: (fn) => {
+      sampleListeners.add(fn);
+      return () => sampleListeners.delete(fn);
+    },
+    getOffset: () => pipeline.thrustZero,
+    setOffset: (n) => {
+      pipeline.thrustZero = n;
+    },
+    tell: (e) => tell(e),
+    scale_N: model ? predictAtThrottle(model, 1).thrust_N : null,
+    ...(opts.zeroRules ? { rules: opts.zeroRules } : {}),
+  });
+  if (sessions) sessions.onBegin = (id) => zero.sessionOpened(id);
+  zero.on('status', (v) => hub.broadcast({ type: 'extras', extras: { zero: v } }));
+  zero.on('drift', ({ session, view, event }) => {
+    if (!store || session === null) return;
+    try {
+      // Usually after the session was closed (the post-run reading waits for the rotor to stop).
+      store.writeBatch(session, [], [], [event]);
+      if (view.warned) store.update(session, { addTags: [ZERO_DRIFT_TAG] });
+    } catch (err) {
+      tell({ t: Date.now(), level: 'error', kind: 'recording', text: `the zero drift of session ${session} was not recorded: ${(err as Error).message}` });
+    }
+  });
 
   function snapshot(client: Client): Snapshot {
     return {
@@ -362,11 +401,18 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
         requireChecklist('arm');
         calibration.requireIdle('arm');
         if (sequences.live) throw new ControlError('a sequence is running: it arms and disarms the bench itself');
+        // Not safe: arm() refuses with the state, as it always did.
+        if (controller.state === 'safe') await zero.beforeRun('arming', { keep: msg.keep_zero === true });
         return controller.arm();
       case 'sequence_start': {
         requireChecklist('sequence');
         if (msg.check_only) return sequences.check(msg.source);
         calibration.requireIdle('sequence');
+        // The plan's checks first (a refused plan needs no zero), then the zero step, then the start.
+        if (!sequences.live) {
+          sequences.check(msg.source);
+          await zero.beforeRun('the sequence', { keep: msg.keep_zero === true, managed: true });
+        }
         return sequences.start({ source: msg.source, ...(msg.title !== undefined ? { title: msg.title } : {}), ...(msg.tags !== undefined ? { tags: msg.tags } : {}) });
       }
       case 'sequence_pause':
@@ -384,7 +430,8 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
       case 'tare':
         // Through the calibration history when there is one: a firmware tare also resets the host's thrust
         // offset, which a span made before it would otherwise apply twice.
-        return calibration.available ? calibration.handle({ type: 'calibration_tare' }).then(() => undefined) : controller.tare();
+        if (zero.busy) throw new ControlError('tare refused: the zero step of a run is in progress');
+        return calibration.available ? calibration.handle({ type: 'calibration_tare' }).then(() => undefined) : controller.tare().then(() => zero.resetOffset('the load cell was tared in the firmware'));
       case 'calibration_tare':
       case 'calibration_span_start':
       case 'calibration_span_placed':
@@ -392,6 +439,7 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
       case 'calibration_current_zero':
       case 'calibration_reference':
       case 'calibration_rpm_pulses':
+        if (zero.busy) throw new ControlError('calibration refused: the zero step of a run is in progress');
         return calibration.handle(msg);
       case 'ping':
         return;
@@ -521,6 +569,7 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     controller,
     interlocks,
     hub,
+    zero,
     sim,
     sessions,
     sequences,
@@ -536,6 +585,7 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
       // A run in progress is cut through its runner (STOP first) so it ends as aborted.
       sequences.cut('daemon stopping');
       calibration.close();
+      zero.close();
       // Cut first. Wait briefly for the device's ACK so the STOP is on the wire before the port closes.
       const sent = link.sendUrgent('estop');
       if (sent) await Promise.race([sent.acked.catch(() => {}), new Promise((r) => setTimeout(r, 300))]);

@@ -197,6 +197,59 @@ export interface SequenceIssueView {
   rule: string;
 }
 
+// ---------------------------------------------------------------- zero before every run
+
+/** One at-rest reading of the thrust (server/bench/zero.ts judgeRest). */
+export interface ZeroReadingView {
+  /** Mean thrust at rest, N, in the zero in force while it was read. */
+  mean_N: number;
+  std_N: number;
+  slope_N_per_s: number;
+  n: number;
+  window_s: number;
+  rpm_max: number | null;
+  steady: boolean;
+  why: string;
+}
+
+/**
+ * The zero step of a run: 'checking' while the thrust at rest is read, then 'tared' (the reading became the
+ * zero), 'kept' (the operator asked to keep the earlier zero) or 'refused' (not at rest or not steady: nothing
+ * armed). 'none' before the first run of a daemon session.
+ */
+export type ZeroStepState = 'none' | 'checking' | 'tared' | 'kept' | 'refused';
+
+/** The zero's drift over the last run: the thrust at rest read again once it ended. */
+export interface ZeroDriftView {
+  state: 'checking' | 'read' | 'not_read';
+  reason: string;
+  /** Session of the run, when recorded. */
+  session: number | null;
+  drift_N: number | null;
+  /** Thrust range of the run (largest minus smallest reading while armed), N. */
+  range_N: number | null;
+  fraction: number | null;
+  limit_N: number | null;
+  warned: boolean;
+  at: number;
+}
+
+/** snapshot.extras.zero, and an extras message whenever it changes. */
+export interface ZeroView {
+  state: ZeroStepState;
+  reason: string;
+  /** Offset taken off every calibrated thrust reading, N (0 until the first zero). */
+  offset_N: number;
+  /** Host time the offset was taken, or null. */
+  at: number | null;
+  /** The last at-rest reading before a run. */
+  reading: ZeroReadingView | null;
+  /** The last post-run check. */
+  after: ZeroDriftView | null;
+  /** A post-run drift larger than this fraction of the run's thrust range warns. */
+  drift_fraction: number;
+}
+
 // ---------------------------------------------------------------- calibration from the dashboard
 
 /** What a dashboard can calibrate (CalibrationWorkflows in server/calibration/workflows.ts does the work). */
@@ -318,7 +371,8 @@ export type ServerMessage =
 
 export type ClientMessage =
   | { type: 'stop'; id?: number }
-  | { type: 'arm'; id?: number }
+  /** `keep_zero`: skip the zero step and keep the earlier zero (the session says so). */
+  | { type: 'arm'; id?: number; keep_zero?: boolean }
   | { type: 'disarm'; id?: number }
   | { type: 'throttle'; id?: number; value: number }
   | { type: 'clear'; id?: number }
@@ -327,7 +381,7 @@ export type ClientMessage =
   /** Every id of CHECKLIST_ITEMS, ticked by the operator. */
   | { type: 'checklist'; id?: number; items: ChecklistItemId[] }
   /** `check_only`: validate against the device and rig and reply with the plan, arming nothing. */
-  | { type: 'sequence_start'; id?: number; source: SequenceSource; title?: string; tags?: string[]; check_only?: boolean }
+  | { type: 'sequence_start'; id?: number; source: SequenceSource; title?: string; tags?: string[]; check_only?: boolean; keep_zero?: boolean }
   | { type: 'sequence_pause'; id?: number }
   | { type: 'sequence_resume'; id?: number }
   | { type: 'sequence_abort'; id?: number }
@@ -381,14 +435,14 @@ export const CONTROL_TYPES: ReadonlySet<ClientMessageType> = new Set([
 
 const CLIENT_FIELDS: Record<ClientMessageType, readonly string[]> = {
   stop: [],
-  arm: [],
+  arm: ['keep_zero'],
   disarm: [],
   throttle: ['value'],
   clear: [],
   tare: [],
   ping: [],
   checklist: ['items'],
-  sequence_start: ['source', 'title', 'tags', 'check_only'],
+  sequence_start: ['source', 'title', 'tags', 'check_only', 'keep_zero'],
   sequence_pause: [],
   sequence_resume: [],
   sequence_abort: [],
@@ -493,6 +547,7 @@ export function parseClientMessage(text: string): ParseResult<ClientMessage> {
     }
     if (obj.check_only !== undefined && typeof obj.check_only !== 'boolean') return { ok: false, error: 'sequence_start.check_only must be true or false' };
   }
+  if ((type === 'arm' || type === 'sequence_start') && obj.keep_zero !== undefined && typeof obj.keep_zero !== 'boolean') return { ok: false, error: `${type}.keep_zero must be true or false` };
   if (type.startsWith('calibration_')) {
     const bad = checkCalibration(type, obj);
     if (bad) return { ok: false, error: bad };

@@ -11,7 +11,7 @@ import type { RigSpec } from '../model/rig-types.js';
 import type { SessionRecorder } from '../store/recorder.js';
 import type { FinalOutcome } from '../store/types.js';
 import type { SessionStore } from '../store/store.js';
-import type { AtmosphereRecord } from '../store/types.js';
+import type { AtmosphereRecord, StoredEvent } from '../store/types.js';
 import type { Calibration } from './calibration.js';
 import type { BenchController } from './controller.js';
 import type { OperatingPoint } from './operating-point.js';
@@ -37,6 +37,8 @@ export class SessionKeeper {
   private rec: SessionRecorder | null = null;
   private intent: SessionIntent | null = null;
   private managed = false;
+  /** Told of every session opened; returns events to write into it first (the zero step of the run). */
+  onBegin: ((id: number) => StoredEvent[]) | null = null;
 
   constructor(
     private readonly store: SessionStore,
@@ -132,6 +134,7 @@ export class SessionKeeper {
       this.tell({ t: Date.now(), level: 'error', kind: 'recording', text: `this run is NOT being recorded: ${(err as Error).message}; bench control is unaffected` });
       return null;
     }
+    for (const e of this.onBegin?.(this.rec.id) ?? []) this.rec.addEvent(e);
     return this.rec.id;
   }
 }

@@ -43,6 +43,8 @@ export class DeviceClock {
 export class TelemetryPipeline {
   readonly clock = new DeviceClock();
   calibration: Calibration = identityCalibration();
+  /** The zero taken before a run (zero-service.ts), N, off every calibrated thrust reading. */
+  thrustZero = 0;
   /** Last voltage and current, held so power can be formed when a frame carries only one of them. */
   private lastV: number | null = null;
   private lastI: number | null = null;
@@ -63,7 +65,7 @@ export class TelemetryPipeline {
     return {
       t: now,
       dt: this.clock.unwrap(x.t),
-      thrust: x.thrust === undefined ? null : applyCalibration(c.thrust, x.thrust),
+      thrust: x.thrust === undefined ? null : applyCalibration(c.thrust, x.thrust) - this.thrustZero,
       voltage,
       current,
       power,

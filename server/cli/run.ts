@@ -64,7 +64,7 @@ export const RUN_SPEC: CommandSpec = {
   usage:
     'ductbench run (--sequence FILE | --staircase START,STOP,STEP --hold SECONDS [--ramp SECONDS] [--window SECONDS])\n' +
     '              [--sim [--sim-rig FILE] [--sim-seed N] [--sim-fault KIND[@SECONDS] ...] | --port PATH [--baud N] --yes-i-have-checked]\n' +
-    '              [--rig FILE] [--max-throttle F] [--air-density KG_PER_M3] [--tag T ...] [--data-dir DIR] [--json]',
+    '              [--rig FILE] [--max-throttle F] [--air-density KG_PER_M3] [--keep-zero] [--tag T ...] [--data-dir DIR] [--json]',
   options: {
     sequence: { kind: 'string', value: 'FILE', help: 'sequence file (JSON; see server/sequence/SCHEMA.md)' },
     staircase: { kind: 'string', value: 'START,STOP,STEP', help: 'a staircase of throttle fractions 0..1 instead of a file, e.g. 0.2,0.8,0.1' },
@@ -81,12 +81,14 @@ export const RUN_SPEC: CommandSpec = {
     rig: { kind: 'string', value: 'FILE', help: 'rig description: propeller diameter for the figure of merit, limits for the checks' },
     'max-throttle': { kind: 'number', value: 'F', help: 'refuse any step above this throttle (on top of the device ceiling)', min: 0, max: 1 },
     'air-density': { kind: 'number', value: 'KG_PER_M3', help: 'air density for the figure of merit (default 1.225, ISA sea level)', min: 0.3, max: 1.6 },
+    'keep-zero': { kind: 'flag', help: 'do not zero the thrust at rest before the run: keep the zero in force (the session says so)' },
     tag: { kind: 'string', value: 'T', help: 'tag for the recorded session', repeat: true },
     'data-dir': { kind: 'string', value: 'DIR', help: 'folder for recorded sessions' },
     json: { kind: 'flag', help: 'print the result as one JSON object on stdout' },
   },
   notes: [
     'Throttle values are fractions 0..1. A sequence asking for more than the device ceiling or the rig limit is refused before anything arms.',
+    'Before arming, the thrust is read at rest and taken as zero; thrust that is not steady at rest (wind, vibration, something touching the stand) refuses the run. After it, the thrust at rest is read again and the zero drift reported.',
     'Exit status: 0 completed; 1 tripped, aborted, interrupted or no device; 2 bad usage or a refused sequence. Ctrl-C cuts the throttle first.',
   ],
 };
@@ -335,11 +337,25 @@ async function runInner(argv: string[], io: RunIo, hooks: RunHooks, say: (s: str
     });
 
     io.stderr(`ductbench run: ${plan.name}: ${n} step${n === 1 ? '' : 's'} on ${daemon.link.view().source}\n`);
+    let zero;
+    try {
+      zero = await daemon.zero.beforeRun('the run', { keep: o['keep-zero'] === true, managed: true });
+    } catch (err) {
+      say((err as Error).message);
+      say('refused before arming: nothing was sent to the motor');
+      return 2;
+    }
+    io.stderr(`ductbench run: ${zero.text}\n`);
     const started = runner.start();
     // Faults are timed from the start of the run, on the device's clock (which follows real time).
     for (const f of faults) daemon.sim?.injectFault(f.kind, { after_ms: f.at_s * 1000 });
     const result = await started;
     await record?.finish?.(result);
+    // The zero read again at rest: the drift over the run.
+    daemon.zero.afterRun();
+    await daemon.zero.settled();
+    const drift = daemon.zero.view().after;
+    if (drift) io.stderr(`ductbench run: ${drift.reason}\n`);
 
     const id = daemon.link.identity;
     const extra = {
@@ -347,6 +363,7 @@ async function runInner(argv: string[], io: RunIo, hooks: RunHooks, say: (s: str
       device: id ? { firmware: id.firmware, version: id.firmwareVersion, ceiling: id.throttleCeiling, source: daemon.link.view().source } : null,
       rig: rigInUse ? rigInUse.name : null,
       faults: faults.map((f) => ({ kind: f.kind, at_s: f.at_s })),
+      zero: { mode: zero.mode, offset_N: zero.offset_N, previous_offset_N: zero.previous_offset_N, reading: zero.reading, drift },
     };
     io.stdout(o.json ? JSON.stringify(resultJson(result, extra)) + '\n' : table(result));
     return result.outcome === 'completed' ? 0 : 1;

@@ -342,6 +342,20 @@ export class VirtualBench {
         const o = options as FaultOptions['prop_loss'];
         return [() => (mods.propFraction = Math.min(1, Math.max(0, o.remaining_fraction ?? 0.1))), () => (mods.propFraction = 1)];
       }
+      case 'stand_disturbance': {
+        const o = options as FaultOptions['stand_disturbance'];
+        return [() => (this.sensors.disturbanceN = o.amplitude_n ?? 0.3), () => (this.sensors.disturbanceN = 0)];
+      }
+      case 'zero_shift': {
+        const o = options as FaultOptions['zero_shift'];
+        const shift = o.shift_n ?? 0.2;
+        const rate = Math.abs(shift) / Math.max(0.001, (o.ramp_ms ?? 2000) / 1000);
+        const set = (target: number) => {
+          this.sensors.zeroShiftTargetN = target;
+          this.sensors.zeroShiftRateNPerS = rate;
+        };
+        return [() => set(shift), () => set(0)];
+      }
       case 'thrust_dropout': {
         const o = options as FaultOptions['thrust_dropout'];
         return [() => (this.sensors.dropout = o.mode ?? 'silent'), () => (this.sensors.dropout = null)];

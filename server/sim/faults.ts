@@ -15,6 +15,8 @@ export const FAULT_KINDS = [
   'brownout',
   'reset',
   'ignore_heartbeat',
+  'stand_disturbance',
+  'zero_shift',
 ] as const;
 export type InjectedFaultKind = (typeof FAULT_KINDS)[number];
 
@@ -75,6 +77,18 @@ export interface FaultOptions {
    * the host's own defences. Until clear().
    */
   ignore_heartbeat: Timing;
+  /**
+   * Something disturbs the stand at rest: a draught on the propeller, a hand or a cable on the stand, a
+   * machine shaking the bench. The load cell sees a swinging force of `amplitude_n` (default 0.3 N) at a few
+   * hertz, rotor or not. A zero taken now would be wrong: the zero step must refuse.
+   */
+  stand_disturbance: Lasting & { amplitude_n?: number };
+  /**
+   * The load cell's zero creeps by `shift_n` (default 0.2 N) over `ramp_ms` (default 2000 ms), as a cell
+   * warming up or a cable settling does: what the post-run zero reading measures as drift. It stays shifted
+   * until clear() (or duration_ms).
+   */
+  zero_shift: Lasting & { shift_n?: number; ramp_ms?: number };
 }
 
 /** Handle to an injected fault. */

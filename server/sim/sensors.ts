@@ -45,6 +45,12 @@ export class SensorBank {
    * with the stand turned upright), as an operator does to span the cell. The cell cannot tell it from thrust.
    */
   externalLoadN = 0;
+  /** Amplitude of a disturbance on the stand (fault 'stand_disturbance'), N: a force swinging at a few hertz. */
+  disturbanceN = 0;
+  /** Zero creep of the cell (fault 'zero_shift'): it moves towards `zeroShiftTargetN` at `zeroShiftRateNPerS`. */
+  zeroShiftTargetN = 0;
+  zeroShiftRateNPerS = 0;
+  private zeroShiftN = 0;
 
   constructor(
     private readonly k: SimConstants,
@@ -75,7 +81,12 @@ export class SensorBank {
   tick(nowUs: number, dt: number, truth: Readonly<TruthState>): SensorSample[] {
     const k = this.k;
     const lagS = k.thrust_lag_ms / 1000;
-    const force = truth.thrustN + this.externalLoadN;
+    const ts = nowUs / 1e6;
+    // Two incommensurate tones: a swing no window of a second averages away.
+    const disturbance = this.disturbanceN > 0 ? this.disturbanceN * (0.8 * Math.sin(2 * Math.PI * 1.7 * ts) + 0.4 * Math.sin(2 * Math.PI * 5.3 * ts + 1)) : 0;
+    const force = truth.thrustN + this.externalLoadN + disturbance;
+    const dz = this.zeroShiftTargetN - this.zeroShiftN;
+    this.zeroShiftN += Math.sign(dz) * Math.min(Math.abs(dz), this.zeroShiftRateNPerS * dt);
     this.lagged += (force - this.lagged) * (lagS > 0 ? Math.min(1, dt / lagS) : 1);
     this.integral += this.lagged * dt;
     this.integralTime += dt;
@@ -108,7 +119,7 @@ export class SensorBank {
         // The slower conversion averages more: noise density falls with the square root of the rate.
         const rateNoise = k.thrust_noise_n * Math.sqrt(k.thrust_rate_hz / 80);
         const vib = k.thrust_vibration_n * (t.rpm / 10000) ** 2;
-        let f = avg * k.thrust_scale + k.thrust_offset_n + this.driftN + g() * Math.hypot(rateNoise, vib);
+        let f = avg * k.thrust_scale + k.thrust_offset_n + this.driftN + this.zeroShiftN + g() * Math.hypot(rateNoise, vib);
         if (k.thrust_resolution_n > 0) f = Math.round(f / k.thrust_resolution_n) * k.thrust_resolution_n;
         this.lastThrust = f;
         return f;
