@@ -94,6 +94,8 @@ export class ZeroService extends TypedEmitter<ZeroServiceEvents> {
   private track: Track | null = null;
   private after: AfterJob | null = null;
   private closed = false;
+  /** Host time of the last disarm (ms), or 0. */
+  private disarmedAt = 0;
   private readonly offs: (() => void)[] = [];
 
   constructor(private readonly d: ZeroServiceDeps) {
@@ -143,7 +145,13 @@ export class ZeroService extends TypedEmitter<ZeroServiceEvents> {
     this.setState('checking', opts.keep ? `reading the thrust at rest before ${what} (keeping the earlier zero)` : `reading the thrust at rest before ${what}: keep the stand and the propeller still`);
     let v: RestVerdict;
     try {
-      v = await this.read();
+      // Straight after a run the rotor may still be coasting: wait for it rather than refuse.
+      const deadline = Date.now() + this.rules.after_wait_s * 1000;
+      for (;;) {
+        v = await this.read();
+        const coasting = v.turning || Date.now() - this.disarmedAt < this.rules.spin_down_s * 1000;
+        if (v.steady || !coasting || Date.now() >= deadline || this.d.controller.state !== 'safe' || this.closed) break;
+      }
     } finally {
       this.checking = false;
     }
@@ -242,6 +250,7 @@ export class ZeroService extends TypedEmitter<ZeroServiceEvents> {
   // ---- the post-run reading
 
   private onTransition(from: string, to: string): void {
+    if (to === 'safe' || to === 'tripped') this.disarmedAt = Date.now();
     if (to === 'armed' && from === 'safe') {
       if (this.after) {
         const job = this.after;

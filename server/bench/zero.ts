@@ -34,6 +34,11 @@ export interface ZeroRules {
   drift_floor_N: number;
   /** How long the post-run reading may wait for the rotor to stop and the reading to settle, s. */
   after_wait_s: number;
+  /**
+   * A zero step within this long of the last disarm, or while the rotor still turns, waits for the rotor to
+   * stop (up to after_wait_s) rather than refuse at once: a run started straight after the last one.
+   */
+  spin_down_s: number;
 }
 
 // Limits for the virtual bench's cell and a common bench cell (from the virtual bench's noise: 0.008 N at 80
@@ -53,6 +58,7 @@ export const DEFAULT_ZERO_RULES: Readonly<ZeroRules> = Object.freeze({
   drift_fraction: 0.01,
   drift_floor_N: 0.01,
   after_wait_s: 8,
+  spin_down_s: 3,
 });
 
 export interface RestReading {
@@ -72,6 +78,8 @@ export interface RestVerdict {
   window_s: number;
   /** Highest rpm in the window, or null where the bench reports none. */
   rpm_max: number | null;
+  /** The rotor was still turning (rpm above rest_rpm). */
+  turning: boolean;
   std_limit_N: number;
   slope_limit_N_per_s: number;
   /** Why this is not a zero (empty when steady). */
@@ -98,9 +106,10 @@ export function judgeRest(readings: readonly RestReading[], rules: ZeroRules, sc
   const stdLimit = Math.max(rules.std_abs_N, rules.std_rel * scale);
   const slopeLimit = Math.max(rules.slope_abs_N_per_s, rules.slope_rel_per_s * scale);
   const why: string[] = [];
+  const turning = rpmMax !== null && rpmMax > rules.rest_rpm;
   if (s.n < rules.min_samples) why.push(`only ${s.n} thrust readings in ${rules.window_s} s (need ${rules.min_samples}); is the load cell reporting?`);
   else {
-    if (rpmMax !== null && rpmMax > rules.rest_rpm) why.push(`the rotor is still turning (${Math.round(rpmMax)} rpm)`);
+    if (turning) why.push(`the rotor is still turning (${Math.round(rpmMax!)} rpm)`);
     const unsteady: string[] = [];
     if (!(s.std < stdLimit)) unsteady.push(`spread ${s.std.toFixed(3)} N, limit ${stdLimit.toFixed(3)} N`);
     if (!(Math.abs(s.slope) < slopeLimit)) unsteady.push(`drifting ${s.slope.toFixed(3)} N/s, limit ${slopeLimit.toFixed(3)} N/s`);
@@ -114,6 +123,7 @@ export function judgeRest(readings: readonly RestReading[], rules: ZeroRules, sc
     n: s.n,
     window_s: rules.window_s,
     rpm_max: rpmMax,
+    turning,
     std_limit_N: stdLimit,
     slope_limit_N_per_s: slopeLimit,
     why: why.join('; '),

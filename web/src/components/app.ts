@@ -15,6 +15,7 @@ import './checklist.js';
 import './sequence-panel.js';
 import './sessions-view.js';
 import './compare-view.js';
+import './zero-status.js';
 import { OPEN_CALIBRATION } from './calibration-panel.js';
 import { NEED_CHECKLIST } from './checklist.js';
 
@@ -30,11 +31,25 @@ const LIVE_CHANNELS: SampleChannel[] = ['thrust', 'power', 'voltage', 'current',
  */
 export class DbApp extends LitElement {
   static override styles = css`
+    /*
+     * The stop button is fixed to the bottom-right corner of the viewport, and nothing may ever be laid out
+     * under it: on the bench view the side column (wider than the button, right above it) stays within the
+     * viewport above the button's height and scrolls inside itself; every other page, and the one-column
+     * layout, keeps a right gutter of the button's width. --db-banner-h and --db-stop-h are measured (the
+     * caution banner wraps, the stop status line grows with its message).
+     */
     :host {
       display: block;
       min-height: 100vh;
       background: var(--db-bg);
       color: var(--db-ink);
+      --db-stop-w: 11.5rem;
+      --db-stop-gutter: calc(var(--db-stop-w) + 2rem);
+    }
+    @media (max-width: 640px) {
+      :host {
+        --db-stop-w: 8.5rem;
+      }
     }
     db-caution-banner {
       position: sticky;
@@ -81,6 +96,11 @@ export class DbApp extends LitElement {
     .side {
       display: grid;
       gap: 0.8rem;
+      position: sticky;
+      /* Stuck where it starts, so its height never reaches down to the stop button at any scroll. */
+      top: var(--db-side-top, 7rem);
+      max-height: calc(100vh - var(--db-side-top, 7rem) - var(--db-stop-h, 9rem) - 1.8rem);
+      overflow-y: auto;
     }
     .main {
       display: grid;
@@ -115,7 +135,7 @@ export class DbApp extends LitElement {
       color: #fff;
     }
     .page {
-      padding: 0.7rem 1rem 10rem;
+      padding: 0.7rem var(--db-stop-gutter) 10rem 1rem;
     }
     [hidden] {
       display: none !important;
@@ -123,6 +143,12 @@ export class DbApp extends LitElement {
     @media (max-width: 900px) {
       .layout {
         grid-template-columns: minmax(0, 1fr);
+        padding-right: var(--db-stop-gutter);
+      }
+      .side {
+        position: static;
+        max-height: none;
+        overflow: visible;
       }
       .charts {
         grid-template-columns: minmax(0, 1fr);
@@ -139,6 +165,8 @@ export class DbApp extends LitElement {
   private _releaseProvider: (() => void) | null = null;
   private _releaseKeys: (() => void) | null = null;
   private _unsubscribe: (() => void) | null = null;
+  /** Keeps --db-banner-h and --db-stop-h at the caution banner's and the stop button's heights. */
+  private _sizes: ResizeObserver | null = null;
 
   constructor() {
     super();
@@ -161,8 +189,38 @@ export class DbApp extends LitElement {
     this._releaseKeys = installStopKeys(document, () => void this.dashboard?.client.stop());
   }
 
+  protected override firstUpdated(): void {
+    this._sizes = new ResizeObserver(() => this._measure());
+    for (const sel of ['db-caution-banner', 'db-stop-button', 'header']) {
+      const el = this.renderRoot.querySelector(sel);
+      if (el) this._sizes.observe(el);
+    }
+    this._measure();
+  }
+
+  private _measure(): void {
+    const h = (sel: string) => (this.renderRoot.querySelector(sel) as HTMLElement | null)?.getBoundingClientRect().height ?? 0;
+    this.style.setProperty('--db-banner-h', `${Math.ceil(h('db-caution-banner'))}px`);
+    this.style.setProperty('--db-stop-h', `${Math.ceil(h('db-stop-button'))}px`);
+    // Where the side column starts in the page (below the banner, the header and any alert), plus the layout's
+    // own top padding: it sticks there.
+    const layout = this.renderRoot.querySelector('.layout') as HTMLElement | null;
+    const side = this.renderRoot.querySelector('.side') as HTMLElement | null;
+    if (layout && side && !layout.hidden) {
+      const pad = parseFloat(getComputedStyle(layout).paddingTop) || 0;
+      this.style.setProperty('--db-side-top', `${Math.ceil(layout.getBoundingClientRect().top + window.scrollY + pad)}px`);
+    }
+  }
+
+  protected override updated(): void {
+    // An alert or the checklist above the layout moves the side column down.
+    this._measure();
+  }
+
   override disconnectedCallback(): void {
     super.disconnectedCallback();
+    this._sizes?.disconnect();
+    this._sizes = null;
     this._releaseKeys?.();
     this._releaseKeys = null;
     this._detach();
@@ -227,6 +285,7 @@ export class DbApp extends LitElement {
         <div class="side">
           <db-calibration-warnings></db-calibration-warnings>
           <db-bench-controls></db-bench-controls>
+          <db-zero-status></db-zero-status>
           <db-bench-status></db-bench-status>
           <db-identity-card></db-identity-card>
         </div>

@@ -27,6 +27,12 @@ export class DbBenchControls extends LitElement {
       .result {
         min-height: 1.2em;
       }
+      .keep-zero {
+        display: flex;
+        align-items: center;
+        gap: 0.4rem;
+        margin: 0 0 0.6rem;
+      }
     `,
   ];
 
@@ -38,8 +44,11 @@ export class DbBenchControls extends LitElement {
       this.dispatchEvent(new CustomEvent(NEED_CHECKLIST, { bubbles: true, composed: true }));
       return;
     }
-    this._send({ type: 'arm' });
+    this._send({ type: 'arm', ...(this._keepZero ? { keep_zero: true } : {}) });
   }
+
+  /** Arm without zeroing first (the daemon zeroes before every arm unless told to keep the earlier zero). */
+  private _keepZero = false;
 
   private _send(cmd: Command): void {
     void this._dash.client?.send(cmd);
@@ -98,6 +107,10 @@ export class DbBenchControls extends LitElement {
         </button>
         <button data-testid="clear" ?disabled=${!can || state !== 'tripped'} @click=${() => this._send({ type: 'clear' })}>Clear fault</button>
       </div>
+      <label class="note keep-zero"
+        ><input type="checkbox" data-testid="arm-keep-zero" ?disabled=${!can} @change=${(e: Event) => (this._keepZero = (e.target as HTMLInputElement).checked)} /> Arm
+        keeping the earlier zero (no zero step)</label
+      >
       ${can && !confirmed
         ? html`<p class="note" data-testid="checklist-note">Arming opens the pre-arm checklist first (once per daemon session).</p>`
         : ''}

@@ -154,6 +154,11 @@ export class DbSequencePanel extends LitElement {
       td.unsettled {
         color: var(--db-warn);
       }
+      label.check {
+        display: flex;
+        align-items: center;
+        gap: 0.4rem;
+      }
     `,
   ];
 
@@ -167,6 +172,7 @@ export class DbSequencePanel extends LitElement {
     _issues: { state: true },
     _message: { state: true },
     _busy: { state: true },
+    _keepZero: { state: true },
   };
   declare _kind: SourceKind;
   declare _example: string;
@@ -177,6 +183,7 @@ export class DbSequencePanel extends LitElement {
   declare _issues: SequenceIssueView[];
   declare _message: string;
   declare _busy: boolean;
+  declare _keepZero: boolean;
 
   private readonly _dash = new DashboardController(this, ['snapshot', 'extras', 'run', 'connection', 'bench']);
 
@@ -191,6 +198,7 @@ export class DbSequencePanel extends LitElement {
     this._issues = [];
     this._message = '';
     this._busy = false;
+    this._keepZero = false;
   }
 
   private _examples(): ExampleSequence[] {
@@ -239,6 +247,7 @@ export class DbSequencePanel extends LitElement {
       ...(checkOnly ? { check_only: true } : {}),
       ...(this._title.trim() ? { title: this._title.trim() } : {}),
       ...(tags.length ? { tags } : {}),
+      ...(this._keepZero && !checkOnly ? { keep_zero: true } : {}),
     });
     this._busy = false;
     if (r.ok) {
@@ -309,6 +318,10 @@ export class DbSequencePanel extends LitElement {
               </label>`}
         <label>Title (optional)<input type="text" data-testid="seq-title" .value=${this._title} @input=${(e: Event) => (this._title = (e.target as HTMLInputElement).value)} /></label>
         <label>Tags, comma-separated<input type="text" data-testid="seq-tags" .value=${this._tags} @input=${(e: Event) => (this._tags = (e.target as HTMLInputElement).value)} /></label>
+        <label class="wide check"
+          ><input type="checkbox" data-testid="seq-keep-zero" .checked=${this._keepZero} @change=${(e: Event) => (this._keepZero = (e.target as HTMLInputElement).checked)} />
+          Keep the earlier zero (do not zero the thrust at rest first; the session says so)</label
+        >
       </div>
       <div class="actions">
         <button data-testid="seq-check" ?disabled=${!canControl || this._busy} @click=${() => void this._submit(true)}>Check</button>

@@ -17,7 +17,8 @@ export class DbStopButton extends LitElement {
       flex-direction: column;
       align-items: stretch;
       gap: 0.35rem;
-      width: 11.5rem;
+      /* The page reserves this width for the button (db-app's --db-stop-w): nothing is laid out under it. */
+      width: var(--db-stop-w, 11.5rem);
     }
     button {
       font: inherit;
@@ -69,9 +70,6 @@ export class DbStopButton extends LitElement {
       font-weight: 700;
     }
     @media (max-width: 640px) {
-      :host {
-        width: 8.5rem;
-      }
       button {
         min-height: 4.5rem;
       }
