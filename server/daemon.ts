@@ -40,6 +40,8 @@ import { sessionsApi } from './http/sessions-api.js';
 import { ZeroService, ZERO_DRIFT_TAG } from './bench/zero-service.js';
 import type { ZeroRules } from './bench/zero.js';
 import type { PredictFn, RunnerOptions } from './sequence/index.js';
+import { PartsLibrary } from './parts/library.js';
+import { MountService, type MountSource, type MountState } from './parts/mount.js';
 
 export const DEFAULT_HTTP_PORT = 8470;
 /** A heartbeating controller silent this long while the motor may turn is taken as lost (ms). */
@@ -67,7 +69,10 @@ export interface DaemonOptions {
   /** Built dashboard folder; defaults to dist/web beside the compiled server. */
   webRoot?: string;
   link?: Partial<Omit<LinkOptions, 'transport'>>;
-  /** The mounted rig (validated), for the prediction and the limits. Defaults to the virtual bench's rig. */
+  /**
+   * The first mount (a validated rig), for the prediction and the limits; defaults to the virtual bench's rig.
+   * With a data folder its parts go into the parts library, and dashboards may mount others while disarmed.
+   */
   rig?: RigSpec | null;
   /** Size cap of the session database (tests of a full disk); none by default. */
   maxDatabaseBytes?: number;
@@ -135,6 +140,8 @@ export interface RunningDaemon {
   sequences: SequenceService;
   /** Calibrations from a dashboard (refused without a data folder). */
   calibration: CalibrationService;
+  /** What is on the stand, and the parts library behind it (none without a data folder). */
+  mounts: MountService;
   /** The in-process virtual bench, when that is the device (tests and fault injection reach it here). */
   sim: VirtualBench | null;
   /** Resolves once the first connection attempt has finished (ready or failed). */
@@ -180,41 +187,58 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
   const { make: makeTransport, sim } = await transportFor(opts.source);
   const link = new DeviceLink({ ...opts.link, transport: makeTransport });
   const controller = new BenchController(link);
-  // The rig the prediction and limits are for. The virtual bench's rig minus its truth constants, when no
-  // other is given: the model never sees the bench's own physics.
-  let rig: RigSpec | null = opts.rig ?? null;
+  // The first mount: the rig given, else the virtual bench's rig minus its truth constants (the model never
+  // sees the bench's own physics).
+  let initialRig: RigSpec | null = opts.rig ?? null;
   if (opts.rig === undefined && sim) {
     const { sim: _truth, ...described } = sim.rig;
-    rig = described;
+    initialRig = described;
   }
-  const limits: Limits = parseLimits({ ...(rig?.limits ?? {}), ...(opts.limits ?? {}) }, rig?.limits ? 'rig limits' : 'limits');
+  const initialSource: MountSource = opts.rig ? 'rig file' : sim ? 'virtual bench' : 'none';
+  // Sessions are recorded when a data folder is given (the CLI always gives one; tests mostly do not).
+  const store = opts.dataDir ? SessionStore.open(opts.dataDir, { busyTimeoutMs: 20, ...(opts.maxDatabaseBytes ? { maxDatabaseBytes: opts.maxDatabaseBytes } : {}) }) : null;
+  const mounts = new MountService({
+    library: store ? new PartsLibrary(store.db) : null,
+    // The first rig's limits section and the command line's limits are the bench's, for every later mount too.
+    benchLimits: { ...(initialRig?.limits ?? {}), ...(opts.limits ?? {}) },
+    refusal: () => mountRefusal(),
+  });
+  mounts.setInitial(initialRig, initialSource);
+  // What follows the mount; reassigned by applyMount() when a dashboard mounts other parts.
+  let rig: RigSpec | null = mounts.state.rig;
+  let limits: Limits = mounts.state.limits;
   controller.maxSlewPerS = limits.max_slew_per_s;
   controller.maxThrottle = limits.max_throttle;
   const atmosphere = resolveAtmosphere(opts.atmosphere);
-  let model: RigModel | null = null;
-  try {
-    model = rig ? buildRigModel(rig, { air: atmosphere.air }) : null;
-  } catch (err) {
-    log(`ductbench: no prediction for rig ${rig?.name}: ${(err as Error).message}`);
-  }
-  const interlocks = new Interlocks(controller, {
+  const modelFor = (r: RigSpec | null): RigModel | null => {
+    try {
+      return r ? buildRigModel(r, { air: atmosphere.air }) : null;
+    } catch (err) {
+      log(`ductbench: no prediction for rig ${r?.name}: ${(err as Error).message}`);
+      return null;
+    }
+  };
+  let model: RigModel | null = modelFor(rig);
+  // What the interlocks judge by for the mount in force.
+  const interlockMount = () => ({
     limits,
     diameterM: rig?.propeller.diameter_m ?? null,
     cells: rig?.supply.cells ?? null,
-    airTemperatureK: atmosphere.temperature_K,
     predictor: model
-      ? (throttle, voltage) => {
+      ? (throttle: number, voltage: number) => {
           const p = predictAtThrottle(model!, throttle, voltage);
           return { gramsPerWatt: p.gramsPerWatt, thrust_N: p.thrust_N };
         }
       : null,
     // a fifth of the thrust the rig is predicted to make at full throttle
     deviationMinThrustN: model ? 0.2 * predictAtThrottle(model, 1).thrust_N : 0,
+  });
+  const interlocks = new Interlocks(controller, {
+    ...interlockMount(),
+    airTemperatureK: atmosphere.temperature_K,
     badLineCount: () => Object.values(link.view().linesBad).reduce((a, b) => a + b, 0),
   });
   let prediction: LivePrediction | null = null;
-  // Sessions are recorded when a data folder is given (the CLI always gives one; tests mostly do not).
-  const store = opts.dataDir ? SessionStore.open(opts.dataDir, { busyTimeoutMs: 20, ...(opts.maxDatabaseBytes ? { maxDatabaseBytes: opts.maxDatabaseBytes } : {}) }) : null;
   const tell = (event: BenchEvent) => {
     events.push(event);
     hub.broadcast({ type: 'event', event });
@@ -239,6 +263,7 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
   const sessions = store
     ? new SessionKeeper(store, controller, () => ({
         rig,
+        mount: mounts.sessionParts(),
         calibration: pipeline.calibration,
         atmosphere: {
           density_kg_m3: atmosphere.density_kg_m3,
@@ -252,12 +277,14 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     : null;
   interlocks.on('trip', ({ rule, finding, sample }) => sessions?.addTrip(rule, finding.value, finding.limit, finding.detail, sample));
   // The same prediction `ductbench run` gives its runner, at the bench's own air.
-  const predict: PredictFn | null = model
-    ? (throttle, voltage) => {
-        const p = predictAtThrottle(model!, throttle, voltage);
-        return { thrust_N: p.thrust_N, power_W: p.powerElectrical_W, grams_per_watt: p.gramsPerWatt };
-      }
-    : null;
+  const predictFor = (m: RigModel | null): PredictFn | null =>
+    m
+      ? (throttle, voltage) => {
+          const p = predictAtThrottle(m, throttle, voltage);
+          return { thrust_N: p.thrust_N, power_W: p.powerElectrical_W, grams_per_watt: p.gramsPerWatt };
+        }
+      : null;
+  let predict = predictFor(model);
   const sequences = new SequenceService({
     controller,
     onSample: (fn) => {
@@ -266,9 +293,16 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     },
     identity: () => link.identity,
     sessions,
-    rig,
-    limits,
-    predict,
+    // Read at every check and start: a run uses the mount in force when it starts.
+    get rig() {
+      return rig;
+    },
+    get limits() {
+      return limits;
+    },
+    get predict() {
+      return predict;
+    },
     airDensity_kg_m3: atmosphere.density_kg_m3,
     examples: loadExamples(opts.examplesDir ?? defaultExamplesDir(), log),
     tell: (e) => tell(e),
@@ -290,6 +324,8 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     prediction,
     limits,
     rig: rig ? { name: rig.name, ducted: rig.duct !== null } : null,
+    mount: mounts.view(),
+    parts: mounts.partsView(),
     atmosphere: { density_kg_m3: atmosphere.density_kg_m3, temperature_K: atmosphere.temperature_K, source: atmosphere.source },
     checklist: checklistView(),
     sequences: sequences.examples(),
@@ -352,7 +388,10 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
       pipeline.thrustZero = n;
     },
     tell: (e) => tell(e),
-    scale_N: model ? predictAtThrottle(model, 1).thrust_N : null,
+    // Read at every zero step: the mount in force's predicted full-throttle thrust.
+    get scale_N() {
+      return model ? predictAtThrottle(model, 1).thrust_N : null;
+    },
     ...(opts.zeroRules ? { rules: opts.zeroRules } : {}),
   });
   if (sessions) sessions.onBegin = (id) => zero.sessionOpened(id);
@@ -367,6 +406,46 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
       tell({ t: Date.now(), level: 'error', kind: 'recording', text: `the zero drift of session ${session} was not recorded: ${(err as Error).message}` });
     }
   });
+
+  function mountRefusal(): string | null {
+    const st = controller.state;
+    if (st === 'armed' || st === 'running') return `the bench is ${st}: disarm first (the parts must not change while the rotor may turn)`;
+    if (sequences.live) return 'a sequence is in progress: let it finish or abort it first';
+    try {
+      calibration.requireIdle('mounting');
+    } catch (err) {
+      return (err as Error).message;
+    }
+    return null;
+  }
+
+  // A new mount is in force at once: the prediction, the interlocks, the next run and the next session follow
+  // it, and every dashboard hears of it. On the virtual bench the simulated hardware changes with it.
+  function applyMount(st: MountState): void {
+    rig = st.rig;
+    limits = st.limits;
+    controller.maxSlewPerS = limits.max_slew_per_s;
+    controller.maxThrottle = limits.max_throttle;
+    model = modelFor(rig);
+    predict = predictFor(model);
+    interlocks.remount(interlockMount());
+    if (sim && rig) sim.remount(rig);
+    prediction = null;
+    if (model && link.identity) {
+      try {
+        prediction = livePrediction(model, link.identity.throttleCeiling, atmosphere);
+      } catch (err) {
+        log(`ductbench: prediction failed: ${(err as Error).message}`);
+      }
+    }
+    const parts = mounts.view().slots.filter((x) => x.part_id !== null).map((x) => `${x.slot} ${x.name} r${x.revision}`);
+    tell({ t: Date.now(), level: 'info', kind: 'mount', text: `mounted ${rig?.name ?? 'nothing'}${parts.length ? ` (${parts.join(', ')})` : ''}` });
+    hub.broadcast({ type: 'extras', extras: extras() });
+  }
+  mounts.on('mount', (st) => applyMount(st));
+  mounts.on('parts', (parts) => hub.broadcast({ type: 'extras', extras: { parts } }));
+  // Whether a mount is accepted follows the bench state: keep every dashboard's view of it current.
+  controller.on('transition', () => hub.broadcast({ type: 'extras', extras: { mount: mounts.view() } }));
 
   function snapshot(client: Client): Snapshot {
     return {
@@ -441,6 +520,13 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
       case 'calibration_rpm_pulses':
         if (zero.busy) throw new ControlError('calibration refused: the zero step of a run is in progress');
         return calibration.handle(msg);
+      case 'mount':
+        mounts.mount(msg.parts, msg.name);
+        return mounts.view();
+      case 'part_create': {
+        const p = mounts.createPart(msg.kind, msg.name, msg.document);
+        return { id: p.id, kind: p.kind, name: p.name, revision: p.revision };
+      }
       case 'ping':
         return;
       default:
@@ -574,6 +660,7 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     sessions,
     sequences,
     calibration,
+    mounts,
     firstConnect,
     onSample(fn) {
       sampleListeners.add(fn);

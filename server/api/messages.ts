@@ -4,6 +4,7 @@
 
 import type { FaultCode } from '../../firmware-protocol/src/messages.js';
 import type { OperatingPoint } from '../bench/operating-point.js';
+import { PART_KINDS, type MountRequest, type PartKind } from '../parts/types.js';
 
 export const API_VERSION = 1;
 
@@ -132,6 +133,49 @@ export interface ChecklistView {
   at: number | null;
   items: readonly ChecklistItemId[];
 }
+
+// ---------------------------------------------------------------- what is mounted (server/parts/)
+
+/** One slot of the mount in force (snapshot.extras.mount.slots). */
+export interface MountSlotView {
+  slot: PartKind;
+  /** The library part and revision, or null for a rig from a file without a library (or an empty duct slot). */
+  part_id: number | null;
+  revision: number | null;
+  /** The part's newest revision: above `revision` when it was revised after mounting. */
+  latest: number | null;
+  name: string | null;
+  /** What is in the slot, in one line. */
+  summary: string;
+}
+
+/** snapshot.extras.mount: what is on the stand, for every dashboard; only the controller may change it. */
+export interface MountView {
+  rig: string | null;
+  ducted: boolean;
+  source: 'library' | 'rig file' | 'virtual bench' | 'none';
+  slots: MountSlotView[];
+  sigma: number | null;
+  tip_clearance_mm: number | null;
+  tip_clearance_pct_radius: number | null;
+  /** Host time of the mount (ms since epoch). */
+  mounted_at: number;
+  /** Whether a mount would be accepted now, and if not why (armed, a run in progress, no library). */
+  can_mount: boolean;
+  why_not: string | null;
+}
+
+/** snapshot.extras.parts: the library's parts that can be mounted (latest revisions, none retired). */
+export interface PartView {
+  id: number;
+  kind: PartKind;
+  name: string;
+  revision: number;
+  summary: string;
+  notes: string;
+}
+
+export const MAX_PART_NAME = 80;
 
 // ---------------------------------------------------------------- sequences from the dashboard
 
@@ -398,6 +442,10 @@ export type ClientMessage =
   /** rpm pickup: pulses it really gives per revolution, and what the firmware is set for. */
   | { type: 'calibration_rpm_pulses'; id?: number; actual: number; firmware: number }
   /** A viewer asks for control: granted at once when no dashboard has it, else the controller is asked. */
+  /** Mount library parts (their latest revisions) while disarmed; duct null for an open propeller. */
+  | { type: 'mount'; id?: number; parts: MountRequest; name?: string }
+  /** Add a part to the library; `document` holds the kind's fields (as in a rig file), notes and limits. */
+  | { type: 'part_create'; id?: number; kind: PartKind; name: string; document: Record<string, unknown> }
   | { type: 'takeover_request'; id?: number }
   /** The controller's answer to takeover_asked. */
   | { type: 'takeover_answer'; id?: number; request: number; allow: boolean };
@@ -431,6 +479,8 @@ export const CONTROL_TYPES: ReadonlySet<ClientMessageType> = new Set([
   'calibration_current_zero',
   'calibration_reference',
   'calibration_rpm_pulses',
+  'mount',
+  'part_create',
 ]);
 
 const CLIENT_FIELDS: Record<ClientMessageType, readonly string[]> = {
@@ -453,6 +503,8 @@ const CLIENT_FIELDS: Record<ClientMessageType, readonly string[]> = {
   calibration_current_zero: [],
   calibration_reference: ['channel', 'reading'],
   calibration_rpm_pulses: ['actual', 'firmware'],
+  mount: ['parts', 'name'],
+  part_create: ['kind', 'name', 'document'],
   takeover_request: [],
   takeover_answer: ['request', 'allow'],
 };
@@ -548,11 +600,36 @@ export function parseClientMessage(text: string): ParseResult<ClientMessage> {
     if (obj.check_only !== undefined && typeof obj.check_only !== 'boolean') return { ok: false, error: 'sequence_start.check_only must be true or false' };
   }
   if ((type === 'arm' || type === 'sequence_start') && obj.keep_zero !== undefined && typeof obj.keep_zero !== 'boolean') return { ok: false, error: `${type}.keep_zero must be true or false` };
+  if (type === 'mount' || type === 'part_create') {
+    const bad = checkParts(type, obj);
+    if (bad) return { ok: false, error: bad };
+  }
   if (type.startsWith('calibration_')) {
     const bad = checkCalibration(type, obj);
     if (bad) return { ok: false, error: bad };
   }
   return { ok: true, value: obj as unknown as ClientMessage };
+}
+
+/** Shape checks of the parts messages; a part's fields are the library's to judge (it names the field). */
+function checkParts(type: string, obj: Record<string, unknown>): string | null {
+  const name = obj.name;
+  if (name !== undefined && (typeof name !== 'string' || name.trim() === '' || name.length > MAX_PART_NAME)) return `${type}.name must be a non-empty string of at most ${MAX_PART_NAME} characters`;
+  if (type === 'part_create') {
+    if (!(PART_KINDS as readonly unknown[]).includes(obj.kind)) return `part_create.kind must be one of ${PART_KINDS.join(', ')}`;
+    if (name === undefined) return 'part_create.name is required';
+    if (!isObject(obj.document)) return 'part_create.document must be an object';
+    return null;
+  }
+  const parts = obj.parts;
+  if (!isObject(parts)) return 'mount.parts must be an object with a part id for each of propeller, motor, esc, supply, duct';
+  for (const k of Object.keys(parts)) if (!(PART_KINDS as readonly string[]).includes(k)) return `mount.parts: unknown slot ${JSON.stringify(k)}`;
+  for (const k of PART_KINDS) {
+    const v = parts[k];
+    if (k === 'duct' && v === null) continue;
+    if (!(Number.isSafeInteger(v) && (v as number) >= 1)) return `mount.parts.${k} must be a part id${k === 'duct' ? ' or null (open propeller)' : ''}`;
+  }
+  return null;
 }
 
 /** Field checks of the calibration messages (every field is required). */

@@ -8,6 +8,7 @@
 
 import type { BenchEvent, DeviceIdentity } from '../api/messages.js';
 import type { RigSpec } from '../model/rig-types.js';
+import type { MountedPart } from '../parts/types.js';
 import type { SessionRecorder } from '../store/recorder.js';
 import type { FinalOutcome } from '../store/types.js';
 import type { SessionStore } from '../store/store.js';
@@ -28,6 +29,8 @@ export interface SessionIntent {
 
 export interface RecordingContext {
   rig: RigSpec | null;
+  /** The library revisions mounted, linked to the session (empty for a rig from a file alone). */
+  mount?: MountedPart[];
   calibration: Calibration;
   atmosphere: AtmosphereRecord | null;
   firmware: DeviceIdentity | null;
@@ -109,6 +112,7 @@ export class SessionKeeper {
         tags: intent.tags ?? [],
         ...(intent.notes !== undefined ? { notes: intent.notes } : {}),
         rig: ctx.rig,
+        ...(ctx.mount?.length ? { mount: ctx.mount } : {}),
         calibration: ctx.calibration,
         atmosphere: ctx.atmosphere,
         firmware: ctx.firmware,

@@ -128,7 +128,7 @@ export class Interlocks extends TypedEmitter<InterlockEvents> {
   limits: Limits;
   private readonly opts: InterlockOptions;
   private readonly now: () => number;
-  private readonly trend: TrendWindow;
+  private trend: TrendWindow;
   private readonly exceededSince = new Map<string, number>();
   private readonly lastWarnAt = new Map<string, number>();
   private timer: NodeJS.Timeout | null = null;
@@ -195,6 +195,22 @@ export class Interlocks extends TypedEmitter<InterlockEvents> {
   close(): void {
     if (this.timer) clearInterval(this.timer);
     this.timer = null;
+  }
+
+  /**
+   * A new mount (the bench is disarmed): its limits, propeller diameter, cells and prediction judge from the
+   * next sample on. Readings of the old hardware say nothing about the new, so the history is dropped too.
+   */
+  remount(m: Pick<InterlockOptions, 'limits' | 'diameterM' | 'cells' | 'predictor' | 'deviationMinThrustN'>): void {
+    this.limits = m.limits;
+    this.opts.diameterM = m.diameterM;
+    this.opts.predictor = m.predictor ?? null;
+    this.opts.deviationMinThrustN = m.deviationMinThrustN ?? 0;
+    this.cells = m.cells ?? (m.limits.cells > 0 ? m.limits.cells : null);
+    this.trend = new TrendWindow(m.limits.vibration_window_s);
+    this.predicted = null;
+    this.lastPredictionAt = -Infinity;
+    this.reset();
   }
 
   /** Forget per-connection history (after a reconnect the old readings say nothing about the new link). */

@@ -92,7 +92,7 @@ function increasing(p: string, xs: number[]): void {
   }
 }
 
-function parsePropeller(x: unknown): PropellerSpec {
+export function parsePropeller(x: unknown): PropellerSpec {
   const path = 'propeller';
   const o = objectAt(x, path, ['diameter_m', 'pitch_m', 'blades', 'geometry', 'static_table', 'mass_kg']);
   const diameter_m = within(`${path}.diameter_m`, positive(`${path}.diameter_m`, numberAt(o, path, 'diameter_m', true)), 0.02, 3, ' m');
@@ -147,7 +147,7 @@ function parsePropeller(x: unknown): PropellerSpec {
   return out;
 }
 
-function parseMotor(x: unknown): MotorSpec {
+export function parseMotor(x: unknown): MotorSpec {
   const path = 'motor';
   const o = objectAt(x, path, ['kv_rpm_per_v', 'resistance_ohm', 'no_load_current_a', 'no_load_voltage_v', 'mass_kg']);
   const kv = within(`${path}.kv_rpm_per_v`, numberAt(o, path, 'kv_rpm_per_v', true), 1, 100000, ' rpm/V');
@@ -162,7 +162,7 @@ function parseMotor(x: unknown): MotorSpec {
   return { kv_rpm_per_v: kv, resistance_ohm: r, no_load_current_a: i0, no_load_voltage_v: v0, mass_kg: mass };
 }
 
-function parseEsc(x: unknown): EscSpec {
+export function parseEsc(x: unknown): EscSpec {
   const path = 'esc';
   const o = objectAt(x, path, ['efficiency', 'resistance_ohm', 'throttle_map']);
   const eff = numberAt(o, path, 'efficiency', false);
@@ -211,7 +211,7 @@ function parseDuct(x: unknown, propDiameter: number): DuctSpec | null {
   return { bore_diameter_m: bore, inlet_lip_radius_m: lip, exit_diameter_m: exit, length_m: length, mass_kg: mass };
 }
 
-function parseSupply(x: unknown): SupplySpec {
+export function parseSupply(x: unknown): SupplySpec {
   const path = 'supply';
   const o = objectAt(x, path, ['cells', 'voltage_v', 'internal_resistance_ohm', 'capacity_mah']);
   const cells = numberAt(o, path, 'cells', false);

@@ -79,10 +79,11 @@ interface FaultEntry {
 }
 
 export class VirtualBench {
-  readonly rig: RigSpec;
+  /** What is on the virtual stand; replaced by remount() (the board and its truth constants stay). */
+  rig: RigSpec;
   readonly sim: SimConstants;
   private readonly rng: Prng;
-  private readonly truthModel: TruthModel;
+  private truthModel: TruthModel;
   private readonly sensors: SensorBank;
   private readonly fw: Firmware;
   private output: ((chunk: string) => void) | null;
@@ -257,6 +258,20 @@ export class VirtualBench {
       offline: this.offlineUntilUs !== null,
       activeFaults: this.faults.filter((f) => f.active).map((f) => f.kind),
     };
+  }
+
+  /**
+   * Other hardware on the same virtual stand (the daemon's mount, while disarmed): propeller, motor, ESC,
+   * pack and duct from `hardware`, the board, its sensors and the truth constants (`sim`) unchanged. Injected
+   * faults in force carry over to the new hardware.
+   */
+  remount(hardware: RigSpec): void {
+    if (this.fw.output !== 0) throw new Error('the virtual bench is turning: disarm before changing its hardware');
+    const { sim: _ignored, ...parts } = hardware;
+    this.rig = { ...parts, ...(this.rig.sim !== undefined ? { sim: this.rig.sim } : {}) };
+    const mods = this.truthModel.mods;
+    this.truthModel = new TruthModel(this.rig, this.sim);
+    Object.assign(this.truthModel.mods, mods);
   }
 
   /** Physical truth right now (what no sensor reports exactly). */

@@ -138,6 +138,48 @@ export const MIGRATIONS: readonly Migration[] = [
       `);
     },
   },
+  {
+    // The parts library (server/parts/): a part is a name and a kind; what it is lives in its revisions, which
+    // are never changed (the triggers refuse it), so a session's link to (part, revision) always finds the
+    // hardware it ran with. A part is retired, never deleted, while any session names it.
+    summary: 'parts library (parts, immutable part revisions) and the mount each session ran with',
+    up(db) {
+      db.exec(`
+        CREATE TABLE parts (
+          id INTEGER PRIMARY KEY AUTOINCREMENT,
+          kind TEXT NOT NULL CHECK (kind IN ('propeller', 'motor', 'esc', 'supply', 'duct')),
+          name TEXT NOT NULL,
+          created_at REAL NOT NULL,
+          retired_at REAL
+        );
+        CREATE UNIQUE INDEX parts_active_name ON parts (kind, name) WHERE retired_at IS NULL;
+
+        CREATE TABLE part_revisions (
+          part_id INTEGER NOT NULL REFERENCES parts (id),
+          revision INTEGER NOT NULL CHECK (revision >= 1),
+          spec_json TEXT NOT NULL,
+          notes TEXT NOT NULL DEFAULT '',
+          limits_json TEXT NOT NULL DEFAULT '{}',
+          created_at REAL NOT NULL,
+          PRIMARY KEY (part_id, revision)
+        ) WITHOUT ROWID;
+        CREATE TRIGGER part_revisions_no_update BEFORE UPDATE ON part_revisions
+          BEGIN SELECT RAISE(ABORT, 'a part revision is never changed: add the next revision'); END;
+        CREATE TRIGGER part_revisions_no_delete BEFORE DELETE ON part_revisions
+          BEGIN SELECT RAISE(ABORT, 'a part revision is never deleted: retire the part'); END;
+
+        CREATE TABLE session_mounts (
+          session_id INTEGER NOT NULL REFERENCES sessions (id) ON DELETE CASCADE,
+          slot TEXT NOT NULL CHECK (slot IN ('propeller', 'motor', 'esc', 'supply', 'duct')),
+          part_id INTEGER NOT NULL,
+          revision INTEGER NOT NULL,
+          PRIMARY KEY (session_id, slot),
+          FOREIGN KEY (part_id, revision) REFERENCES part_revisions (part_id, revision)
+        ) WITHOUT ROWID;
+        CREATE INDEX session_mounts_part ON session_mounts (part_id, revision);
+      `);
+    },
+  },
 ];
 
 export const SCHEMA_VERSION = MIGRATIONS.length;

@@ -16,6 +16,7 @@ import { keepAll, minmaxDecimator, rowsToBatch, strideDecimator, type SampleRow 
 import { InvalidInput, SessionNotFound } from './errors.js';
 import { SessionRecorder, type RecorderOptions, type RecorderSink } from './recorder.js';
 import { migrate, SAMPLE_COLUMNS } from './schema.js';
+import type { MountedPart } from '../parts/types.js';
 import {
   SESSION_OUTCOMES,
   type FinalOutcome,
@@ -157,6 +158,11 @@ export class SessionStore {
         `INSERT INTO sessions (title, notes, outcome, started_at, rig_name, rig_json, calibration_json, atmosphere_json, firmware_json, sequence_json, recorder_pid, heartbeat_at)
          VALUES (@title, @notes, @outcome, @started_at, @rig_name, @rig_json, @calibration_json, @atmosphere_json, @firmware_json, @sequence_json, @recorder_pid, @heartbeat_at)`,
       ),
+      insertMount: db.prepare('INSERT INTO session_mounts (session_id, slot, part_id, revision) VALUES (?, ?, ?, ?)'),
+      mount: db.prepare(
+        `SELECT m.slot, m.part_id, m.revision, p.name FROM session_mounts m JOIN parts p ON p.id = m.part_id WHERE m.session_id = ?
+         ORDER BY CASE m.slot WHEN 'propeller' THEN 0 WHEN 'motor' THEN 1 WHEN 'esc' THEN 2 WHEN 'supply' THEN 3 ELSE 4 END`,
+      ),
       insertTag: db.prepare('INSERT OR IGNORE INTO session_tags (session_id, tag) VALUES (?, ?)'),
       deleteTag: db.prepare('DELETE FROM session_tags WHERE session_id = ? AND tag = ?'),
       insertBlock: db.prepare('INSERT INTO sample_blocks (session_id, t0, t1, n, data) VALUES (?, ?, ?, ?, ?)'),
@@ -244,6 +250,7 @@ export class SessionStore {
       });
       const id = Number(info.lastInsertRowid);
       for (const t of tags) this.st.insertTag.run(id, t);
+      for (const m of ctx.mount ?? []) this.st.insertMount.run(id, m.slot, m.part_id, m.revision);
       return id;
     })();
   }
@@ -358,6 +365,7 @@ export class SessionStore {
         atmosphere: parse(row.atmosphere_json),
         firmware: parse(row.firmware_json),
         sequence: parse(row.sequence_json),
+        mount: this.st.mount.all(id) as MountedPart[],
         points,
         events,
       } as SessionRecord;

@@ -6,6 +6,7 @@ import type { Calibration } from '../bench/calibration.js';
 import type { OperatingPoint } from '../bench/operating-point.js';
 import type { Sample } from '../bench/telemetry.js';
 import type { RigSpec } from '../model/rig-types.js';
+import type { MountedPart } from '../parts/types.js';
 
 export type SessionOutcome = 'running' | 'completed' | 'tripped' | 'aborted' | 'interrupted';
 export const SESSION_OUTCOMES: readonly SessionOutcome[] = ['running', 'completed', 'tripped', 'aborted', 'interrupted'];
@@ -38,6 +39,8 @@ export interface SessionContext {
   firmware?: DeviceIdentity | null;
   /** The sequence (sweep) definition that was run, as given to the sequence runner. */
   sequence?: unknown;
+  /** The library parts mounted (exact revisions), linked in session_mounts; none for a rig from a file alone. */
+  mount?: MountedPart[];
   /** Host time in ms since the epoch; default now. */
   started_at?: number;
 }
@@ -66,6 +69,8 @@ export interface SessionRecord extends SessionSummary {
   atmosphere: AtmosphereRecord | null;
   firmware: DeviceIdentity | null;
   sequence: unknown;
+  /** The library parts the session ran with (slot, part id, revision, name), in slot order; [] when none. */
+  mount: MountedPart[];
   points: OperatingPoint[];
   events: StoredEvent[];
 }
