@@ -29,7 +29,7 @@ const SERVE: CommandSpec = {
     'http-port': { kind: 'int', value: 'N', help: `HTTP port of the dashboard (default ${DEFAULT_HTTP_PORT}; 0 picks a free one)`, min: 0, max: 65535 },
     token: { kind: 'string', value: 'T', help: 'access token (default: $DUCTBENCH_TOKEN, else a new random one each launch)' },
     'data-dir': { kind: 'string', value: 'DIR', help: 'folder for recorded sessions (default ./ductbench-data)' },
-    rig: { kind: 'string', value: 'FILE', help: 'rig file of the mounted set-up, for the prediction and the limits (default: the virtual bench rig)' },
+    rig: { kind: 'string', value: 'FILE', help: 'rig file of the first mount, for the prediction and the limits (default: the virtual bench rig); its parts go into the parts library, and the controlling dashboard may mount others while disarmed' },
     altitude: { kind: 'number', value: 'METRES', help: 'air from the standard atmosphere at this altitude (default 0)', min: -500, max: 6000 },
     'air-temp': { kind: 'number', value: 'DEGC', help: 'measured air temperature (with --air-pressure)' },
     'air-pressure': { kind: 'number', value: 'PA', help: 'measured air pressure in pascals (with --air-temp)' },
@@ -100,6 +100,10 @@ const COMMANDS: Record<string, { spec?: CommandSpec; summary: string; run: (argv
   sessions: {
     summary: 'list, show, export, import, tag, report and delete recorded sessions',
     run: async (a) => (await import('./cli/sessions.js')).sessionsMain(a, stdio),
+  },
+  parts: {
+    summary: 'the parts library: list, show, add, edit (new revision), retire, import and export rig files',
+    run: async (a) => (await import('./cli/parts.js')).partsMain(a, stdio),
   },
   compare: {
     summary: 'compare sessions against a baseline: power saving, thrust gain, net of duct mass, vehicle verdict',
