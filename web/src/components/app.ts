@@ -13,6 +13,7 @@ import './stop-button.js';
 import './view-options.js';
 import './checklist.js';
 import './sequence-panel.js';
+import './mount-panel.js';
 import './sessions-view.js';
 import './compare-view.js';
 import './zero-status.js';
@@ -286,6 +287,7 @@ export class DbApp extends LitElement {
           <db-calibration-warnings></db-calibration-warnings>
           <db-bench-controls></db-bench-controls>
           <db-zero-status></db-zero-status>
+          <db-mount-panel></db-mount-panel>
           <db-bench-status></db-bench-status>
           <db-identity-card></db-identity-card>
         </div>
