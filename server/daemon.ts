@@ -445,7 +445,11 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
   mounts.on('mount', (st) => applyMount(st));
   mounts.on('parts', (parts) => hub.broadcast({ type: 'extras', extras: { parts } }));
   // Whether a mount is accepted follows the bench state: keep every dashboard's view of it current.
-  controller.on('transition', () => hub.broadcast({ type: 'extras', extras: { mount: mounts.view() } }));
+  const mountChanged = () => hub.broadcast({ type: 'extras', extras: { mount: mounts.view() } });
+  controller.on('transition', mountChanged);
+  sequences.on('run', (run) => {
+    if (run.outcome !== null) mountChanged();
+  });
 
   function snapshot(client: Client): Snapshot {
     return {

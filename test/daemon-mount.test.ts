@@ -20,7 +20,8 @@ let ctl: TestClient;
 let viewer: TestClient;
 
 // KD-1 style duct for the 254 mm propeller of the virtual bench: exit 266.4 mm gives sigma = (266.4 / 254)^2
-const KD1 = { bore_diameter_m: 0.2565, inlet_lip_radius_m: 0.012, exit_diameter_m: 0.2664, length_m: 0.09, mass_kg: 0.085, notes: 'printed, first lip' };
+// (its mounting rated to 12 N: a limit of its own, invented)
+const KD1 = { bore_diameter_m: 0.2565, inlet_lip_radius_m: 0.012, exit_diameter_m: 0.2664, length_m: 0.09, mass_kg: 0.085, notes: 'printed, first lip', limits: { max_thrust_n: 12 } };
 
 type Reply = Extract<ServerMessage, { type: 'reply' }>;
 async function request(c: TestClient, msg: Record<string, unknown>): Promise<Reply & { data?: unknown }> {
@@ -124,6 +125,10 @@ describe('the mount from the dashboard', () => {
       expect(mountOf(c).slots.find((s) => s.slot === 'duct')).toMatchObject({ part_id: ductId, revision: 1, name: 'KD-1' });
     }
     expect(d.sim!.rig.duct).toMatchObject({ bore_diameter_m: 0.2565, exit_diameter_m: 0.2664 });
+    // the limits in force follow: the duct's own thrust limit, at the interlocks and at every dashboard
+    expect(d.interlocks.limits.max_thrust_n).toBe(12);
+    for (const c of [ctl, viewer]) expect((extras(c).limits as { max_thrust_n: number }).max_thrust_n).toBe(12);
+    expect(open.slots).toHaveLength(5);
     expect(ctl.messages.some((m) => m.type === 'event' && m.event.kind === 'mount' && /duct KD-1 r1/.test(m.event.text))).toBe(true);
   });
 

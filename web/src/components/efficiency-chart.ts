@@ -128,7 +128,9 @@ export class DbEfficiencyChart extends PlotElement {
     const air = this._airText();
     return html`<span class="title">Thrust per watt</span
       ><span class="muted">${u.eff} against thrust (${u.thrust})${p ? '' : ' · no model overlay'}</span
-      >${air ? html`<span class="muted" data-testid="air">${air}</span>` : ''}`;
+      >${air ? html`<span class="muted" data-testid="air">${air}</span>` : ''}${p
+        ? html`<span class="muted" data-testid="model-lines">model and ideal ${p.idealDucted.some((x) => x !== null) ? 'open and ducted' : 'open'}</span>`
+        : ''}`;
   }
 
   protected override pngDecor() {

@@ -144,7 +144,8 @@ export class DbMountPanel extends LitElement {
     const armed = st === 'armed' || st === 'running';
     const runLive = c?.run?.live ?? false;
     const library = mount.why_not === null || !/library/.test(mount.why_not);
-    const closed = armed ? `the bench is ${st}: disarm to change what is mounted` : runLive ? 'a sequence is running' : mount.why_not;
+    // From the bench state and the run as this page has them now (the daemon refuses anyway, and says why).
+    const closed = armed ? `the bench is ${st}: disarm to change what is mounted` : runLive ? 'a sequence is running: let it finish or abort it first' : null;
     return html`
       <h2>Mounted</h2>
       <p data-testid="mount-rig"><strong>${mount.rig ?? 'nothing described'}</strong> <span class="muted">(${mount.source})</span></p>
