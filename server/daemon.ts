@@ -429,7 +429,14 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     model = modelFor(rig);
     predict = predictFor(model);
     interlocks.remount(interlockMount());
-    if (sim && rig) sim.remount(rig);
+    if (sim && rig) {
+      try {
+        sim.remount(rig);
+      } catch (err) {
+        // Disarmed by the mount's own check; a board still turning keeps its old hardware and says so.
+        tell({ t: Date.now(), level: 'warn', kind: 'mount', text: `the virtual bench kept its hardware: ${(err as Error).message}` });
+      }
+    }
     prediction = null;
     if (model && link.identity) {
       try {

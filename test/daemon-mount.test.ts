@@ -4,12 +4,14 @@
 // cannot change the mount; mounting while armed is refused with the reason; the next run records the mount
 // with its revisions, and keeps them after the part is revised.
 
+import { readFileSync } from 'node:fs';
 import { mkdtemp, rm } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { CHECKLIST_IDS, type MountView, type PartView, type ServerMessage } from '../server/api/messages.js';
 import { startDaemon, type LivePrediction, type RunningDaemon } from '../server/daemon.js';
+import { parseRig } from '../server/model/rig.js';
 import { PartsLibrary } from '../server/parts/library.js';
 import { SessionStore } from '../server/store/store.js';
 import { TestClient } from './helpers/ws-client.js';
@@ -154,5 +156,25 @@ describe('the mount from the dashboard', () => {
     } finally {
       store.close();
     }
+  });
+});
+
+describe('serve --rig sets the first mount', () => {
+  it('puts the rig file\'s parts into the library, and finds them again on the next start instead of duplicating them', async () => {
+    const rig = parseRig(JSON.parse(readFileSync(new URL('../examples/rigs/quorrel-duct.json', import.meta.url), 'utf8')));
+    const ids: number[][] = [];
+    for (let i = 0; i < 2; i++) {
+      const dd = await startDaemon({ source: { kind: 'sim', seed: 4 }, rig, httpPort: 0, dataDir: dir, log: () => {} });
+      try {
+        await dd.firstConnect;
+        const v = dd.mounts.view();
+        expect(v).toMatchObject({ source: 'rig file', rig: 'quorrel-duct', ducted: true });
+        ids.push(v.slots.map((x) => x.part_id!));
+        expect(dd.mounts.state.rig!.duct).toEqual(rig.duct);
+      } finally {
+        await dd.close();
+      }
+    }
+    expect(ids[1]).toEqual(ids[0]);
   });
 });

@@ -8,6 +8,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { partsMain } from '../server/cli/parts.js';
+import { sessionsMain } from '../server/cli/sessions.js';
 import { parseRig } from '../server/model/rig.js';
 import { mountedParts, PartsLibrary } from '../server/parts/library.js';
 import { SessionStore } from '../server/store/store.js';
@@ -84,5 +85,17 @@ describe('ductbench parts', () => {
     const e = await parts('export', '--session', String(sid));
     expect(e.code, e.err).toBe(0);
     expect(JSON.parse(e.out).motor.resistance_ohm).toBe(0.115);
+    // the sessions that ran with a part, and with one revision of it
+    const list = async (ref: string) => {
+      let out = '';
+      expect(await sessionsMain(['list', '--part', ref, '--json', '--data-dir', dir], { stdout: (x) => void (out += x), stderr: () => {} })).toBe(0);
+      return (JSON.parse(out) as { id: number }[]).map((r) => r.id);
+    };
+    expect(await list(`${motor}`)).toEqual([sid]);
+    expect(await list(`${motor}@1`)).toEqual([sid]);
+    expect(await list(`${motor}@2`)).toEqual([]);
+    let shown = '';
+    await sessionsMain(['show', String(sid), '--data-dir', dir], { stdout: (x) => void (shown += x), stderr: () => {} });
+    expect(shown).toMatch(new RegExp(`parts +propeller .*motor [^,]+ \\(#${motor} r1\\)`));
   });
 });

@@ -4,7 +4,7 @@
 
 import type { FaultCode } from '../../firmware-protocol/src/messages.js';
 import type { OperatingPoint } from '../bench/operating-point.js';
-import { PART_KINDS, type MountRequest, type PartKind } from '../parts/types.js';
+import { MAX_PART_NAME, PART_KINDS, type MountRequest, type PartKind } from '../parts/types.js';
 
 export const API_VERSION = 1;
 
@@ -174,8 +174,6 @@ export interface PartView {
   summary: string;
   notes: string;
 }
-
-export const MAX_PART_NAME = 80;
 
 // ---------------------------------------------------------------- sequences from the dashboard
 

@@ -121,3 +121,10 @@ export function helpText(spec: CommandSpec): string {
   for (const p of spec.notes ?? []) lines.push('', p);
   return lines.join('\n') + '\n';
 }
+
+/** A library part, "12", or one revision of it, "12@3" (parts export, sessions list --part). */
+export function parsePartRef(s: string, what = 'part'): { id: number; revision?: number } {
+  const m = /^(\d+)(?:@(\d+))?$/.exec(s);
+  if (!m || Number(m[1]) < 1 || (m[2] !== undefined && Number(m[2]) < 1)) throw new UsageError(`${what} must be a part id, optionally @revision (e.g. 12 or 12@3), not ${JSON.stringify(s)}`);
+  return { id: Number(m[1]), ...(m[2] !== undefined ? { revision: Number(m[2]) } : {}) };
+}

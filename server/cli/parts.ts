@@ -10,7 +10,7 @@ import { partSummary } from '../parts/mount.js';
 import { PART_KINDS, type PartKind, type PartRevision } from '../parts/types.js';
 import { parseKind } from '../parts/validate.js';
 import { DEFAULT_DATA_DIR, SessionStore } from '../store/store.js';
-import { helpText, parseArgs, UsageError, type CommandSpec, type OptionSpec, type Parsed } from './args.js';
+import { helpText, parseArgs, parsePartRef, UsageError, type CommandSpec, type OptionSpec, type Parsed } from './args.js';
 import { reportError, writeFileAtomic, type CliIo } from './sessions.js';
 
 const DATA_DIR: OptionSpec = { kind: 'string', value: 'DIR', help: `folder of the session store and parts library (default ${DEFAULT_DATA_DIR})` };
@@ -85,13 +85,6 @@ const SUB: Record<string, CommandSpec> = {
 function topHelp(): string {
   const w = Math.max(...Object.keys(SUB).map((k) => k.length)) + 4;
   return ['usage: ductbench parts <list|show|add|edit|retire|import|export> [options]', '', ...Object.entries(SUB).map(([k, s]) => `  ${k.padEnd(w)}${s.summary}`), ''].join('\n');
-}
-
-/** "12" or "12@3". */
-export function parsePartRef(s: string, what = 'part'): { id: number; revision?: number } {
-  const m = /^(\d+)(?:@(\d+))?$/.exec(s);
-  if (!m || Number(m[1]) < 1 || (m[2] !== undefined && Number(m[2]) < 1)) throw new UsageError(`${what} must be a part id, optionally @revision (e.g. 12 or 12@3), not ${JSON.stringify(s)}`);
-  return { id: Number(m[1]), ...(m[2] !== undefined ? { revision: Number(m[2]) } : {}) };
 }
 
 function readDocument(o: Parsed['opts'], required: boolean): Record<string, unknown> | undefined {

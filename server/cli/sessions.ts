@@ -9,7 +9,7 @@ import { ImportError, InvalidInput, SessionNotFound, StoreError } from '../store
 import { exportToString, importText, writeCsv, writeJson, type CsvWhat } from '../store/exchange.js';
 import { DEFAULT_DATA_DIR, SessionStore } from '../store/store.js';
 import type { SessionSummary } from '../store/types.js';
-import { helpText, parseArgs, UsageError, type CommandSpec, type OptionSpec, type Parsed } from './args.js';
+import { helpText, parseArgs, parsePartRef, UsageError, type CommandSpec, type OptionSpec, type Parsed } from './args.js';
 
 export interface CliIo {
   stdout: (s: string) => void;
@@ -22,11 +22,12 @@ const SUB: Record<string, CommandSpec> = {
   list: {
     name: 'sessions list',
     summary: 'list recorded sessions, newest first',
-    usage: 'ductbench sessions list [--tag T ...] [--text WORDS] [--rig NAME] [--outcome O] [--from DATE] [--to DATE] [--data-dir DIR] [--json]',
+    usage: 'ductbench sessions list [--tag T ...] [--text WORDS] [--rig NAME] [--part ID[@REV]] [--outcome O] [--from DATE] [--to DATE] [--data-dir DIR] [--json]',
     options: {
       tag: { kind: 'string', value: 'T', help: 'only sessions with this tag', repeat: true },
       text: { kind: 'string', value: 'WORDS', help: 'only sessions whose title or notes contain this' },
       rig: { kind: 'string', value: 'NAME', help: 'only sessions on this rig' },
+      part: { kind: 'string', value: 'ID[@REV]', help: 'only sessions that ran with this library part (this revision)' },
       outcome: { kind: 'string', value: 'O', help: 'running, completed, tripped, aborted or interrupted', repeat: true },
       from: { kind: 'string', value: 'DATE', help: 'started at or after (ISO date or time)' },
       to: { kind: 'string', value: 'DATE', help: 'started before (ISO date or time)' },
@@ -149,6 +150,7 @@ async function run(sub: string, p: Parsed, io: CliIo): Promise<number> {
           ...(o.tag !== undefined ? { tag: (o.tag as string[]).map(String) } : {}),
           ...(o.text !== undefined ? { text: String(o.text) } : {}),
           ...(o.rig !== undefined ? { rig: String(o.rig) } : {}),
+          ...(o.part !== undefined ? (({ id, revision }) => ({ part: id, ...(revision !== undefined ? { partRevision: revision } : {}) }))(parsePartRef(String(o.part), '--part')) : {}),
           ...(o.outcome !== undefined ? { outcome: (o.outcome as string[]).map(String) as never } : {}),
           ...(o.from !== undefined ? { from: parseDate('from', String(o.from)) } : {}),
           ...(o.to !== undefined ? { to: parseDate('to', String(o.to)) } : {}),
@@ -184,6 +186,7 @@ async function run(sub: string, p: Parsed, io: CliIo): Promise<number> {
           `  outcome   ${s.outcome}`,
           `  started   ${iso(s.started_at)} UTC, ended ${iso(s.ended_at)} UTC`,
           `  rig       ${s.rig_name ?? '—'}${s.rig?.duct ? ` (ducted, exit ${(s.rig.duct.exit_diameter_m * 1000).toFixed(1)} mm, ${(s.rig.duct.mass_kg * 1000).toFixed(0)} g)` : s.rig ? ' (open)' : ''}`,
+          ...(s.mount.length ? [`  parts     ${s.mount.map((m) => `${m.slot} ${m.name} (#${m.part_id} r${m.revision})`).join(', ')}`] : []),
           `  tags      ${s.tags.join(', ') || '—'}`,
           `  samples   ${s.sample_count}`,
           ...(s.notes ? [`  notes     ${s.notes.replace(/\n/g, '\n            ')}`] : []),

@@ -9,7 +9,7 @@ import { RigError, parseRig } from '../model/rig.js';
 import type { RigSpec } from '../model/rig-types.js';
 import { StoreError } from '../store/errors.js';
 import type { LimitLayer } from './limits.js';
-import { PART_KINDS, type MountedPart, type MountRequest, type PartDocument, type PartKind, type PartRevision, type PartSpecs } from './types.js';
+import { MAX_PART_NAME, PART_KINDS, type MountedPart, type MountRequest, type PartDocument, type PartKind, type PartRevision, type PartSpecs } from './types.js';
 import { parseName, parsePartDocument } from './validate.js';
 
 export class PartNotFound extends StoreError {
@@ -220,7 +220,7 @@ export class PartsLibrary {
           reused.push(same);
           return same.id;
         }
-        const name = `${rig.name} ${kind}`.slice(0, 80);
+        const name = `${rig.name} ${kind}`.slice(0, MAX_PART_NAME);
         const taken = this.st.activeByName.get(kind, name) as number | undefined;
         if (taken !== undefined) {
           const cur = this.get(taken);
@@ -247,7 +247,7 @@ export class PartsLibrary {
 
 /** The rig a set of revisions makes, validated whole; `name` defaults to the parts' names. */
 export function mountOf(parts: ResolvedMount['parts'], name?: string): ResolvedMount {
-  const rigName = name ?? `${parts.propeller.name} / ${parts.motor.name} / ${parts.duct ? parts.duct.name : 'open'}`;
+  const rigName = (name ?? `${parts.propeller.name} ${parts.duct ? `in ${parts.duct.name}` : 'open'}`).slice(0, MAX_PART_NAME);
   const doc = {
     name: rigName,
     propeller: parts.propeller.spec,

@@ -8,6 +8,9 @@ import type { DuctSpec, EscSpec, MotorSpec, PropellerSpec, SupplySpec } from '..
 export const PART_KINDS = ['propeller', 'motor', 'esc', 'supply', 'duct'] as const;
 export type PartKind = (typeof PART_KINDS)[number];
 
+/** Longest name of a part (or of a mount), in characters. */
+export const MAX_PART_NAME = 80;
+
 export interface PartSpecs {
   propeller: PropellerSpec;
   motor: MotorSpec;

@@ -6,9 +6,8 @@
 import { LimitsError, parseLimits } from '../interlocks/limits.js';
 import { parseEsc, parseMotor, parsePropeller, parseSupply, RigError, SIGMA_MAX, SIGMA_MIN } from '../model/rig.js';
 import type { DuctSpec } from '../model/rig-types.js';
-import { PART_KINDS, type PartDocument, type PartKind, type PartSpecs } from './types.js';
+import { MAX_PART_NAME, PART_KINDS, type PartDocument, type PartKind, type PartSpecs } from './types.js';
 
-export const MAX_NAME_LENGTH = 80;
 export const MAX_NOTES_LENGTH = 4000;
 /** Largest bore over propeller diameter a duct may have (the rig's own rule, see parseDuct in rig.ts). */
 const MAX_BORE_OVER_DIAMETER = 1.5;
@@ -28,7 +27,7 @@ export function parseName(x: unknown, path = 'name'): string {
   if (typeof x !== 'string') throw new RigError(path, x === undefined ? 'is required' : 'must be a string');
   const t = x.trim();
   if (t === '') throw new RigError(path, 'must not be empty');
-  if (t.length > MAX_NAME_LENGTH) throw new RigError(path, `must be at most ${MAX_NAME_LENGTH} characters`);
+  if (t.length > MAX_PART_NAME) throw new RigError(path, `must be at most ${MAX_PART_NAME} characters`);
   // eslint-disable-next-line no-control-regex
   if (/[\u0000-\u001f\u007f]/.test(t)) throw new RigError(path, 'must not contain control characters');
   return t;

@@ -319,6 +319,11 @@ export class SessionStore {
       where.push('s.rig_name = ?');
       args.push(filter.rig);
     }
+    if (filter.part !== undefined) {
+      // Through session_mounts' index on (part_id, revision): the sessions a part (revision) ran in.
+      where.push('EXISTS (SELECT 1 FROM session_mounts m WHERE m.session_id = s.id AND m.part_id = ? AND (? IS NULL OR m.revision = ?))');
+      args.push(filter.part, filter.partRevision ?? null, filter.partRevision ?? null);
+    }
     if (filter.from !== undefined) {
       where.push('s.started_at >= ?');
       args.push(filter.from);

@@ -82,6 +82,9 @@ export interface ListFilter {
   text?: string;
   /** Exact rig name (from the rig snapshot). */
   rig?: string;
+  /** Ran with this library part (any revision, or `partRevision` only). */
+  part?: number;
+  partRevision?: number;
   /** started_at >= from (ms since epoch). */
   from?: number;
   /** started_at < to (ms since epoch). */

@@ -65,6 +65,7 @@ describe('mounting from the dashboard', () => {
       // picked in its slot already; the rest stay as mounted
       await expect(page.getByTestId('mount-pick-duct').inputValue()).resolves.not.toBe('');
       const sessionsBefore = await fetch(`http://127.0.0.1:${d.port}/api/sessions?token=${d.token}`).then((r) => r.json() as Promise<{ sessions: unknown[] }>);
+      await page.getByTestId('mount-name').fill('Millrace with KD-1');
       await page.getByTestId('mount-apply').click();
       await eventually(() => text(page, 'mount-result'), (t) => t.startsWith('mounted'), 'mounted');
 
@@ -74,6 +75,8 @@ describe('mounting from the dashboard', () => {
         await expect(text(p, 'mount-slot-duct')).resolves.toMatch(/^KD-1 r1 bore 256\.5 mm, exit 266\.4 mm/);
         // sigma = (266.4 / 254)^2 = 1.100
         await expect(text(p, 'mount-sigma')).resolves.toBe('1.100');
+        await expect(text(p, 'mount-rig')).resolves.toBe('Millrace with KD-1 (library)');
+        await expect(text(p, 'air')).resolves.toMatch(/^rig Millrace with KD-1 /);
       }
       await eventually(() => canvasImage(viewer.page, 'db-efficiency-chart'), (img) => img !== openChart, 'the viewer\'s chart redrawn with the ducted lines');
       expect(d.sim!.rig.duct).toMatchObject({ exit_diameter_m: 0.2664 });

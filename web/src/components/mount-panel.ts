@@ -1,6 +1,6 @@
 import { LitElement, css, html } from 'lit';
 import type { MountView, PartView } from '../../../server/api/messages.js';
-import { PART_KINDS, type PartKind } from '../../../server/parts/types.js';
+import { MAX_PART_NAME, PART_KINDS, type PartKind } from '../../../server/parts/types.js';
 import { DashboardController } from '../data/context.js';
 import { fieldStyles, panelStyles } from './styles.js';
 
@@ -68,8 +68,9 @@ export class DbMountPanel extends LitElement {
       }
     `,
   ];
-  static override properties = { _picks: { state: true }, _result: { state: true }, _newKind: { state: true }, _newName: { state: true }, _newText: { state: true }, _newResult: { state: true } };
+  static override properties = { _picks: { state: true }, _name: { state: true }, _result: { state: true }, _newKind: { state: true }, _newName: { state: true }, _newText: { state: true }, _newResult: { state: true } };
   declare _picks: Partial<Record<PartKind, number | null>>;
+  declare _name: string;
   declare _result: { ok: boolean; text: string } | null;
   declare _newKind: PartKind;
   declare _newName: string;
@@ -81,6 +82,7 @@ export class DbMountPanel extends LitElement {
   constructor() {
     super();
     this._picks = {};
+    this._name = '';
     this._result = null;
     this._newKind = 'duct';
     this._newName = '';
@@ -104,9 +106,11 @@ export class DbMountPanel extends LitElement {
       return;
     }
     this._result = { ok: true, text: 'mounting…' };
-    const r = await c.send({ type: 'mount', parts: parts as never });
+    const name = this._name.trim();
+    const r = await c.send({ type: 'mount', parts: parts as never, ...(name ? { name } : {}) });
     if (r.ok) {
       this._picks = {};
+      this._name = '';
       this._result = { ok: true, text: 'mounted: the prediction and the limits follow' };
     } else this._result = { ok: false, text: r.error };
   }
@@ -186,6 +190,10 @@ export class DbMountPanel extends LitElement {
                   >`;
                 })}
               </div>
+              <label
+                >Name of this set-up (optional)
+                <input data-testid="mount-name" maxlength=${MAX_PART_NAME} placeholder="the propeller's name and the duct's" .value=${this._name} @input=${(e: Event) => (this._name = (e.target as HTMLInputElement).value)}
+              /></label>
               <div class="buttons">
                 <button data-testid="mount-apply" ?disabled=${closed !== null} title=${closed ?? 'mount these parts'} @click=${() => void this._mount(mount)}>Mount</button>
               </div>
@@ -206,7 +214,7 @@ export class DbMountPanel extends LitElement {
                       ${PART_KINDS.map((k) => html`<option value=${k} ?selected=${k === this._newKind}>${SLOT_LABELS[k]}</option>`)}
                     </select></label
                   >
-                  <label>Name <input data-testid="part-name" .value=${this._newName} @input=${(e: Event) => (this._newName = (e.target as HTMLInputElement).value)} /></label>
+                  <label>Name <input data-testid="part-name" maxlength=${MAX_PART_NAME} .value=${this._newName} @input=${(e: Event) => (this._newName = (e.target as HTMLInputElement).value)} /></label>
                   <label
                     >Fields (as in a rig file; metres, kilograms)
                     <textarea data-testid="part-fields" .value=${this._newText} @input=${(e: Event) => (this._newText = (e.target as HTMLTextAreaElement).value)}></textarea>
