@@ -447,6 +447,12 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     }
     const parts = mounts.view().slots.filter((x) => x.part_id !== null).map((x) => `${x.slot} ${x.name} r${x.revision}`);
     tell({ t: Date.now(), level: 'info', kind: 'mount', text: `mounted ${rig?.name ?? 'nothing'}${parts.length ? ` (${parts.join(', ')})` : ''}` });
+    // New hardware on the stand: its propeller nut, the rotor plane and the limits in force are worth a fresh
+    // look, so the pre-arm checklist is asked for again before the next arm.
+    if (checklistAt !== null) {
+      checklistAt = null;
+      tell({ t: Date.now(), level: 'info', kind: 'checklist', text: 'the mount changed: the pre-arm checklist is asked for again before the next arm' });
+    }
     hub.broadcast({ type: 'extras', extras: extras() });
   }
   mounts.on('mount', (st) => applyMount(st));

@@ -132,6 +132,10 @@ describe('the mount from the dashboard', () => {
     for (const c of [ctl, viewer]) expect((extras(c).limits as { max_thrust_n: number }).max_thrust_n).toBe(12);
     expect(open.slots).toHaveLength(5);
     expect(ctl.messages.some((m) => m.type === 'event' && m.event.kind === 'mount' && /duct KD-1 r1/.test(m.event.text))).toBe(true);
+    // new hardware on the stand: the pre-arm checklist is asked for again before the next arm
+    for (const c of [ctl, viewer]) expect(extras(c).checklist).toMatchObject({ confirmed: false });
+    expect((await ctl.command({ type: 'arm' })).error).toMatch(/checklist/);
+    expect((await ctl.command({ type: 'checklist', items: [...CHECKLIST_IDS] })).ok).toBe(true);
   });
 
   it('the next run records the mount with its revisions, and keeps them after the duct is revised', async () => {
