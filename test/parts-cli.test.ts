@@ -97,5 +97,22 @@ describe('ductbench parts', () => {
     let shown = '';
     await sessionsMain(['show', String(sid), '--data-dir', dir], { stdout: (x) => void (shown += x), stderr: () => {} });
     expect(shown).toMatch(new RegExp(`parts +propeller .*motor [^,]+ \\(#${motor} r1\\)`));
+    // a JSON export names the parts; imported elsewhere it keeps the rig snapshot and links no parts
+    let exported = '';
+    await sessionsMain(['export', String(sid), '--format', 'json', '--data-dir', dir], { stdout: (x) => void (exported += x), stderr: () => {} });
+    const session = (JSON.parse(exported) as { session: { mount: { slot: string; part_id: number; revision: number }[] } }).session;
+    expect(session.mount.find((m) => m.slot === 'motor')).toMatchObject({ part_id: motor, revision: 1 });
+    const file = join(dir, 'export.json');
+    await writeFile(file, exported);
+    let imported = '';
+    expect(await sessionsMain(['import', file, '--json', '--data-dir', dir], { stdout: (x) => void (imported += x), stderr: () => {} })).toBe(0);
+    const again = SessionStore.open(dir);
+    try {
+      const copy = again.get((JSON.parse(imported) as { id: number }).id);
+      expect(copy.mount).toEqual([]);
+      expect(copy.rig!.motor.resistance_ohm).toBe(0.115);
+    } finally {
+      again.close();
+    }
   });
 });

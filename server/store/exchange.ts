@@ -126,6 +126,9 @@ export function writeJson(store: SessionStore, id: number, write: Write): void {
     atmosphere: s.atmosphere,
     firmware: s.firmware,
     sequence: s.sequence,
+    // The library parts it ran with, for people and later tools; their ids belong to this data folder, so an
+    // import keeps the rig snapshot above and links no parts.
+    mount: s.mount,
   };
   write(`{"format":${JSON.stringify(JSON_FORMAT)},"version":${JSON_VERSION},"session":${JSON.stringify(session)},\n`);
   write(`"points":${JSON.stringify(s.points)},\n"events":${JSON.stringify(s.events)},\n`);
