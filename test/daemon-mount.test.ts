@@ -154,6 +154,8 @@ describe('the mount from the dashboard', () => {
     const store = SessionStore.open(dir, { recover: false });
     try {
       expect(new PartsLibrary(store.db).edit(ductId, { patch: { inlet_lip_radius_m: 0.02 } }).revision).toBe(2);
+      // the mount in force is still revision 1; the view says a newer one is in the library
+      expect(d.mounts.view().slots.find((x) => x.slot === 'duct')).toMatchObject({ revision: 1, latest: 2 });
       const again = store.get(sid);
       expect(again.mount.find((m) => m.slot === 'duct')).toMatchObject({ part_id: ductId, revision: 1 });
       expect(again.rig!.duct!.inlet_lip_radius_m).toBe(0.012);

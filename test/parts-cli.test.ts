@@ -76,7 +76,7 @@ describe('ductbench parts', () => {
     try {
       const lib = new PartsLibrary(store.db);
       const { mount } = lib.importRig(parseRig(JSON.parse(readFileSync(new URL('quorrel-duct.json', RIGS), 'utf8'))));
-      sid = store.createSession({ title: 'before rewind', rig: mount.rig, mount: mountedParts(mount) });
+      sid = store.createSession({ title: 'before rewind', rig: mount.rig, mount: mountedParts(mount.parts) });
       motor = mount.parts.motor.id;
     } finally {
       store.close();

@@ -94,7 +94,7 @@ describe('revisions', () => {
 
   it('a recorded session keeps the revision it ran with after the part is revised', () => {
     const { mount } = lib.importRig(rigFile('quorrel-duct'));
-    const sid = store.createSession({ title: 'KD-1 first look', rig: mount.rig, mount: mountedParts(mount) });
+    const sid = store.createSession({ title: 'KD-1 first look', rig: mount.rig, mount: mountedParts(mount.parts) });
     const duct = mount.parts.duct!;
     const r2 = lib.edit(duct.id, { patch: { inlet_lip_radius_m: 0.006 }, name: 'KD-1 sanded lip' });
     expect(r2.revision).toBe(2);

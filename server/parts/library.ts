@@ -275,10 +275,10 @@ export function mountOf(parts: ResolvedMount['parts'], name?: string): ResolvedM
   return { parts, rig, limitLayers };
 }
 
-/** The mount's parts as stored with a session. */
-export function mountedParts(m: ResolvedMount): MountedPart[] {
+/** A mount's parts as stored with a session: slot, part, revision, name. */
+export function mountedParts(parts: ResolvedMount['parts']): MountedPart[] {
   return PART_KINDS.flatMap((k) => {
-    const p = (m.parts as Record<string, PartRevision | null>)[k];
+    const p = (parts as Record<string, PartRevision | null>)[k];
     return p ? [{ slot: k, part_id: p.id, revision: p.revision, name: p.name }] : [];
   });
 }

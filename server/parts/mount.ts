@@ -137,7 +137,7 @@ export class MountService extends TypedEmitter<MountEvents> {
 
   /** The parts a session recorded now would link to. */
   sessionParts(): MountedPart[] {
-    return this.current.parts ? mountedParts({ parts: this.current.parts, rig: this.current.rig!, limitLayers: [] }) : [];
+    return this.current.parts ? mountedParts(this.current.parts) : [];
   }
 
   partsView(): PartView[] {
@@ -154,7 +154,8 @@ export class MountService extends TypedEmitter<MountEvents> {
         slot,
         part_id: p?.id ?? null,
         revision: p?.revision ?? null,
-        latest: p?.latest ?? null,
+        // Read again: the part may have been revised since (`ductbench parts edit` beside the daemon).
+        latest: p ? this.latestRevision(p) : null,
         name: p?.name ?? null,
         summary: spec ? partSummary(slot, spec as PartSpecs[typeof slot]) : slot === 'duct' ? 'none (open propeller)' : '-',
       };
@@ -172,6 +173,14 @@ export class MountService extends TypedEmitter<MountEvents> {
       can_mount: why === null,
       why_not: why,
     };
+  }
+
+  private latestRevision(p: PartRevision): number {
+    try {
+      return this.d.library?.get(p.id).revision ?? p.latest;
+    } catch {
+      return p.latest;
+    }
   }
 
   private requireLibrary(what: string): PartsLibrary {
