@@ -6,6 +6,7 @@ export type { RigSpec, PropellerSpec, MotorSpec, EscSpec, DuctSpec, SupplySpec }
 export { parseRig, rigGeometry, RigError, SIGMA_MIN, SIGMA_MAX, type RigGeometry } from './rig.js';
 export {
   isaAtmosphere,
+  geopotentialHeight,
   isaAir,
   airFromDensity,
   humidAirDensity,
