@@ -79,7 +79,9 @@ describe('prediction curve', () => {
       expect(pd.gramsPerWatt).toBeGreaterThan(po.gramsPerWatt);
       const ratio = pd.powerShaft_W / po.powerShaft_W;
       expect(ratio).toBeGreaterThan(1 / Math.sqrt(2 * 1.1) - 0.1);
-      expect(ratio).toBeLessThan(1 / Math.sqrt(2 * 1.1) + 0.15);
+      // The KD-1 duct has a 1 % gap and a 12 mm lip: the tip-gap loss keeps about 0.7 of the benefit and the
+      // lip's entry loss takes more (duct-losses.ts), so the saving is about half the ideal's 33 %.
+      expect(ratio).toBeLessThan(1 / Math.sqrt(2 * 1.1) + 0.2);
       expect(pd.thrust_N).toBeCloseTo(thrusts[i], 8);
     }
   });

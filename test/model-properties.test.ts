@@ -16,8 +16,9 @@ import {
   idealPowerRatio,
   operatingPointForThrust,
   parseRig,
-  realisedSigma,
-  type DuctLossFactors,
+  type DuctLossCoefficients,
+  ductLossCoefficients,
+  predictAtThrottle,
   type RigSpec,
 } from '../server/model/index.js';
 
@@ -60,7 +61,7 @@ function rigFor(c: Case, gapOverR: number, lipOverR: number): RigSpec {
   });
 }
 
-function powersAt(rig: RigSpec, thrust: number, ductLosses?: Partial<DuctLossFactors>): { shaft: number; electrical: number | null } {
+function powersAt(rig: RigSpec, thrust: number, ductLosses?: Partial<DuctLossCoefficients>): { shaft: number; electrical: number | null } {
   const m = buildRigModel(rig, { ductLosses });
   const w = m.load.omegaForThrust(thrust);
   const op = operatingPointForThrust(m.drivetrain, m.load, thrust, 60);
@@ -69,10 +70,18 @@ function powersAt(rig: RigSpec, thrust: number, ductLosses?: Partial<DuctLossFac
 
 const tol = 1e-9;
 
+/** Whether the duct saves induced power against the open rotor at all (momentum balance with losses). */
+function helps(rig: RigSpec, ductLosses?: Partial<DuctLossCoefficients>): boolean {
+  return buildRigModel(rig, { ductLosses }).duct!.inducedPowerRatio < 1;
+}
+
 describe('duct loss directions', () => {
-  it('a larger tip clearance never predicts less power at equal thrust', () => {
+  it('a larger tip clearance never predicts less power at equal thrust, for a duct that helps at all', () => {
+    // A duct worse than the open rotor (a nozzle, or a sharp lip's entry loss over a small sigma) is hurt less
+    // from further away: a wider gap takes it towards the open rotor. The property is for ducts that help.
     fc.assert(
       fc.property(caseArb, fc.double({ min: 0, max: 0.1, noNaN: true }), (c, extra) => {
+        fc.pre(helps(rigFor(c, c.gap, c.lip)) && helps(rigFor(c, c.gap + extra, c.lip)));
         const a = powersAt(rigFor(c, c.gap, c.lip), c.thrust);
         const b = powersAt(rigFor(c, c.gap + extra, c.lip), c.thrust);
         expect(b.shaft).toBeGreaterThanOrEqual(a.shaft * (1 - tol));
@@ -94,48 +103,123 @@ describe('duct loss directions', () => {
     );
   });
 
-  it('sigma beyond the attached-flow limit buys nothing', () => {
-    // Diffuser limit (Pereira and Chopra 2009 measured an optimum near 10 degrees half-angle).
-    const c: Case = { D: 0.254, pd: 0.45, sigma: 1.2, length: 0.1, gap: 0.01, lip: 0.1, thrust: 6 };
-    const limited = buildRigModel(rigFor({ ...c, sigma: 1.55 }, c.gap, c.lip)).duct!;
-    expect(limited.sigmaLimited).toBeLessThan(1.55);
-    const beyond = powersAt(rigFor({ ...c, sigma: 1.55 }, c.gap, c.lip), 6).shaft;
-    const atLimit = powersAt(rigFor({ ...c, sigma: limited.sigmaAttached }, c.gap, c.lip), 6).shaft;
-    expect(beyond).toBeCloseTo(atLimit, 9);
+  it('a wider exit never helps beyond the separation onset', () => {
+    // Pereira 2008 and Pereira and Chopra 2009 (CHECKS.md): an optimum diffuser half-angle near 10 degrees,
+    // performance falling beyond it. The model's onset is DEFAULT_DUCT_LOSSES.separationOnset_deg. Below the
+    // onset a wider exit helps only up to the energy balance's optimum (duct-losses.ts); where that lies on
+    // the demo rig is a check value in test/model-duct-trends.test.ts.
+    const onset = DEFAULT_DUCT_LOSSES.separationOnset_deg;
+    fc.assert(
+      fc.property(caseArb, fc.double({ min: 0, max: 1, noNaN: true }), fc.double({ min: 0, max: 1, noNaN: true }), (c, u1, u2) => {
+        const tan = (deg: number): number => Math.tan((deg * Math.PI) / 180);
+        const sigmaAt = (deg: number): number => ((c.D + 2 * c.length * c.D * tan(deg)) / c.D) ** 2;
+        const [b1, b2] = [u1, u2].map((u) => onset + u * 2 * onset).sort((x, y) => x - y);
+        const power = (deg: number): number | null => {
+          const sigma = sigmaAt(deg);
+          if (sigma > 1.6) return null;
+          return powersAt(rigFor({ ...c, sigma }, c.gap, c.lip), c.thrust).shaft;
+        };
+        const pb1 = power(b1);
+        const pb2 = power(b2);
+        fc.pre(pb1 !== null && pb2 !== null);
+        expect(pb2!).toBeGreaterThanOrEqual(pb1! * (1 - tol));
+      }),
+      { numRuns: 150 },
+    );
   });
 
-  it('the loss factors move the effective sigma the measured way', () => {
+  it('a fully separated diffuser costs more power than a straight duct of the same length', () => {
+    fc.assert(
+      fc.property(caseArb, (c) => {
+        const onset = DEFAULT_DUCT_LOSSES.separationOnset_deg;
+        const sigmaStalled = ((c.D + 2 * c.length * c.D * Math.tan((2.2 * onset * Math.PI) / 180)) / c.D) ** 2;
+        fc.pre(sigmaStalled <= 1.6);
+        const stalled = powersAt(rigFor({ ...c, sigma: sigmaStalled }, c.gap, c.lip), c.thrust).shaft;
+        const straight = powersAt(rigFor({ ...c, sigma: 1 }, c.gap, c.lip), c.thrust).shaft;
+        expect(stalled).toBeGreaterThan(straight);
+      }),
+      { numRuns: 100 },
+    );
+  });
+
+  it('the lip carries the duct share of the thrust, the rotor the rest, and the BEMT agrees with the balance', () => {
+    fc.assert(
+      fc.property(caseArb, fc.double({ min: 0, max: 0.3, noNaN: true }), (c, more) => {
+        const m = buildRigModel(rigFor(c, c.gap, c.lip));
+        const d = m.duct!;
+        expect(d.rotorThrustShare + d.lipThrustShare).toBeCloseTo(1, 12);
+        // The BEMT's own rotor and total thrust coefficients give the same split.
+        expect(m.rotor!.ctRotor / m.rotor!.ctTotal).toBeCloseTo(d.rotorThrustShare, 9);
+        // Ideal bound (momentum theory, CHECKS.md): the duct carries at most 1 - 1 / (2 sigma).
+        expect(d.lipThrustShare).toBeLessThanOrEqual(1 - 1 / (2 * Math.max(d.sigma, 0.5)) + 1e-12);
+        // A larger lip never lowers the lip's share.
+        const rounder = buildRigModel(rigFor(c, c.gap, Math.min(c.lip + more, 0.5))).duct!;
+        expect(rounder.lipThrustShare).toBeGreaterThanOrEqual(d.lipThrustShare - 1e-12);
+        const p = predictAtThrottle(m, 0.6, 30);
+        expect(p.rotorThrust_N + p.lipThrust_N!).toBeCloseTo(p.thrust_N, 9);
+      }),
+      { numRuns: 100 },
+    );
+  });
+
+  it('with every loss coefficient at its lossless value the duct is ideal momentum theory', () => {
+    // Momentum theory (CHECKS.md): P_ducted / P_open = 1 / sqrt(2 sigma) at equal thrust, rotor share
+    // 1 / (2 sigma); 0.7071 and 0.5 at sigma = 1.
+    const lossless = { tipGapLoss: 0, lipLoss: 0, diffuserRealisation: 1, shroudRealisation: 1 };
+    for (const sigma of [0.6, 1, 1.2, 1.5]) {
+      const c: Case = { D: 0.254, pd: 0.45, sigma, length: 2, gap: 0.01, lip: 0.1, thrust: 6 };
+      const d = buildRigModel(rigFor(c, c.gap, c.lip), { ductLosses: lossless }).duct!;
+      expect(d.inducedPowerRatio).toBeCloseTo(1 / Math.sqrt(2 * sigma), 9);
+      expect(d.rotorThrustShare).toBeCloseTo(1 / (2 * sigma), 9);
+      expect(d.tipLossWeight).toBe(0);
+    }
+    const one = buildRigModel(rigFor({ D: 0.254, pd: 0.45, sigma: 1, length: 2, gap: 0.01, lip: 0.1, thrust: 6 }, 0.01, 0.1), { ductLosses: lossless }).duct!;
+    expect(one.inducedPowerRatio).toBeCloseTo(0.7071, 4);
+  });
+
+  it('refuses coefficients out of range, naming them', () => {
+    expect(() => ductLossCoefficients({ tipGapLoss: -1 })).toThrow(/tipGapLoss/);
+    expect(() => ductLossCoefficients({ diffuserRealisation: 1.2 })).toThrow(/diffuserRealisation/);
+    expect(() => ductLossCoefficients({ lipLoss: Number.NaN })).toThrow(/lipLoss/);
+    expect(ductLossCoefficients()).toEqual(DEFAULT_DUCT_LOSSES);
+  });
+
+  it('the loss terms move the effective sigma and the loss coefficient the measured way', () => {
     const c: Case = { D: 0.254, pd: 0.45, sigma: 1.2, length: 0.5, gap: 0.01, lip: 0.1, thrust: 6 };
     const base = buildRigModel(rigFor(c, 0.01, 0.1)).duct!;
     const wideGap = buildRigModel(rigFor(c, 0.05, 0.1)).duct!;
     const sharp = buildRigModel(rigFor(c, 0.01, 0)).duct!;
     expect(wideGap.sigmaEffective).toBeLessThan(base.sigmaEffective);
     expect(wideGap.tipLossWeight).toBeGreaterThan(base.tipLossWeight);
-    expect(sharp.sigmaEffective).toBeLessThan(base.sigmaEffective);
+    expect(sharp.lossCoefficient).toBeGreaterThan(base.lossCoefficient);
+    expect(sharp.lipThrustShare).toBeLessThan(base.lipThrustShare);
     expect(base.sigmaEffective).toBeLessThan(base.sigma);
-    expect(sharp.sigmaEffective).toBeGreaterThan(0.5);
+    expect(base.sigmaEffective).toBeGreaterThan(0.5);
   });
 
-  it('the shroud realisation keeps the stated fraction of the ideal saving: 1 is the ideal duct, 0 the open rotor', () => {
-    // Momentum theory (../shared/CHECKS.md): equal-thrust power ratio 1 / sqrt(2 sigma); the realised ratio is
-    // 1 - eta (1 - 1 / sqrt(2 sigma)) by the definition in duct-losses.ts.
+  it('the gap and the shroud realisation keep their stated fraction of the tight duct\'s difference from the open rotor', () => {
+    // By the definition in duct-losses.ts: r = 1 - eta_s g (1 - r_tight), with g = 1 / (1 + (k gap / R)^2).
     fc.assert(
-      fc.property(fc.double({ min: 0.5, max: 1.6, noNaN: true }), fc.double({ min: 0, max: 1.5, noNaN: true }), (sigma, eta) => {
-        const s = realisedSigma(sigma, eta);
-        expect(idealPowerRatio(s)).toBeCloseTo(1 - eta * (1 - idealPowerRatio(sigma)), 10);
+      fc.property(caseArb, fc.double({ min: 0, max: 1.5, noNaN: true }), (c, eta) => {
+        const rig = rigFor(c, c.gap, c.lip);
+        const tight = buildRigModel(rig, { ductLosses: { tipGapLoss: 0, shroudRealisation: 1 } }).duct!;
+        const d = buildRigModel(rig, { ductLosses: { shroudRealisation: eta } }).duct!;
+        const g = 1 / (1 + (DEFAULT_DUCT_LOSSES.tipGapLoss * d.gapOverRadius) ** 2);
+        expect(d.gapRetention).toBeCloseTo(g, 12);
+        expect(d.inducedPowerRatio).toBeCloseTo(1 - eta * g * (1 - tight.inducedPowerRatio), 10);
+        expect(d.rotorThrustShare).toBeCloseTo(1 - eta * g * (1 - tight.rotorThrustShare), 10);
       }),
+      { numRuns: 100 },
     );
-    expect(realisedSigma(1.1, 1)).toBeCloseTo(1.1, 12);
-    expect(realisedSigma(1.1, 0)).toBeCloseTo(0.5, 12);
-    expect(realisedSigma(0.5, 0.7)).toBe(0.5);
-    expect(() => realisedSigma(1.1, -0.1)).toThrow(/shroudRealisation/);
-    expect(() => realisedSigma(1.1, Number.NaN)).toThrow(/shroudRealisation/);
+    expect(() => buildRigModel(rigFor({ D: 0.254, pd: 0.45, sigma: 1.1, length: 0.5, gap: 0.01, lip: 0.1, thrust: 6 }, 0.01, 0.1), { ductLosses: { shroudRealisation: -0.1 } })).toThrow(/shroudRealisation/);
   });
 
   it('a larger shroud realisation never predicts more power at equal thrust, and gap and lip keep their directions under it', () => {
     fc.assert(
       fc.property(caseArb, fc.double({ min: 0, max: 1, noNaN: true }), fc.double({ min: 0, max: 0.5, noNaN: true }), (c, eta, more) => {
         const rig = rigFor(c, c.gap, c.lip);
+        // For a duct that helps at all: realising more of a duct that costs power costs more.
+        fc.pre(helps(rig));
         const a = powersAt(rig, c.thrust, { shroudRealisation: eta });
         const b = powersAt(rig, c.thrust, { shroudRealisation: eta + more });
         expect(b.shaft).toBeLessThanOrEqual(a.shaft * (1 + tol));
@@ -146,8 +230,5 @@ describe('duct loss directions', () => {
     );
     const d = buildRigModel(rigFor({ D: 0.254, pd: 0.45, sigma: 1.2, length: 0.5, gap: 0.01, lip: 0.1, thrust: 6 }, 0.01, 0.1)).duct!;
     expect(d.shroudRealisation).toBe(DEFAULT_DUCT_LOSSES.shroudRealisation);
-    expect(d.sigmaEffective).toBeCloseTo(realisedSigma(d.sigmaGeometric, d.shroudRealisation), 12);
-    expect(d.sigmaEffective).toBeLessThan(d.sigmaGeometric);
-    expect(d.sigmaEffective).toBeGreaterThan(0.5);
   });
 });

@@ -114,32 +114,45 @@ describe('duct', () => {
     expect(ducted.shaftW / open.shaftW).toBeGreaterThan(1 / Math.sqrt(2 * f.sigma));
   });
 
-  it('reaches the ideal 1/sqrt(2 sigma) induced-power ratio only when every loss is switched off', () => {
-    // Momentum theory, shrouded rotor: P_ducted / P_open = 1 / sqrt(2 sigma) at equal thrust, 0.7071 at
-    // sigma = 1 (McCormick, Aerodynamics of V/STOL Flight, 1967; CHECKS.md, from memory).
+  it('never beats ideal momentum theory, even with every loss switched off', () => {
+    // Momentum theory, shrouded rotor: at equal power T_ducted / T_open = (2 sigma)^(1/3), 1.26 at sigma = 1
+    // (McCormick, Aerodynamics of V/STOL Flight, 1967; CHECKS.md, from memory). The bench's thrust ratio is
+    // at equal rotor speed, which in its physics is equal shaft power.
     const D = 0.254;
-    const rig: RigSpec = { ...DEFAULT_OPEN_RIG, duct: { bore_diameter_m: D, inlet_lip_radius_m: 0.02, exit_diameter_m: D, length_m: 0.1, mass_kg: 0.1 } };
-    const ideal = ductFactors(rig, { ...SIM_DEFAULTS, duct_efficiency: 1, duct_lip_penalty: 0, duct_wall_friction: 0 })!;
-    expect(ideal.inducedPowerRatio).toBeCloseTo(0.7071, 4);
-    expect(ideal.thrustRatio).toBeCloseTo(Math.cbrt(2), 4); // (2 sigma)^(1/3) at equal power
-    const real = ductFactors(rig, SIM_DEFAULTS)!;
-    expect(real.inducedPowerRatio).toBeGreaterThan(0.7071);
-    expect(real.inducedPowerRatio).toBeLessThan(1);
+    const perfect = { ...SIM_DEFAULTS, duct_efficiency: 1, duct_wall_friction: 0 };
+    for (let sigma = 0.55; sigma <= 1.6; sigma += 0.05) {
+      // Zero gap, a lip of a third of the radius, a diffuser long enough to stay attached.
+      const rig: RigSpec = {
+        ...DEFAULT_OPEN_RIG,
+        duct: { bore_diameter_m: D * 1.000001, inlet_lip_radius_m: 0.045, exit_diameter_m: D * Math.sqrt(sigma), length_m: 0.7, mass_kg: 0.1 },
+      };
+      const f = ductFactors(rig, perfect)!;
+      expect(f.thrustRatio).toBeLessThanOrEqual(Math.cbrt(2 * Math.max(sigma, 0.5)) + 1e-9);
+      expect(f.thrustRatio).toBeGreaterThanOrEqual(1);
+    }
   });
 
-  it('realises less with a wider tip gap, more with a larger lip, and loses exit area past the diffuser limit', () => {
-    // Directions of change from Pereira and Chopra, JAHS 54(1), 2009 (CHECKS.md); the magnitudes are ours.
+  it('keeps less with a wider tip gap, more with a larger lip, and a stalled diffuser costs thrust', () => {
+    // Directions of change from Pereira and Chopra, JAHS 54(1), 2009 (CHECKS.md); the magnitudes are the
+    // bench's own tables.
     const base = DEFAULT_DUCTED_RIG.duct!;
     const at = (d: Partial<typeof base>) => ductFactors({ ...DEFAULT_DUCTED_RIG, duct: { ...base, ...d } }, SIM_DEFAULTS)!;
     const ref = at({});
-    expect(at({ bore_diameter_m: 0.254 + 2 * 0.003 }).realisation).toBeLessThan(ref.realisation);
-    expect(at({ inlet_lip_radius_m: 0.005 }).realisation).toBeLessThan(ref.realisation);
-    expect(at({ inlet_lip_radius_m: 0.03 }).realisation).toBeGreaterThan(ref.realisation);
+    expect(at({ bore_diameter_m: 0.254 + 2 * 0.003 }).thrustRatio).toBeLessThan(ref.thrustRatio);
+    expect(at({ inlet_lip_radius_m: 0.005 }).thrustRatio).toBeLessThan(ref.thrustRatio);
+    expect(at({ inlet_lip_radius_m: 0.03 }).thrustRatio).toBeGreaterThan(ref.thrustRatio);
+    // Most of the gain gone by a few percent of the radius.
+    const wide = at({ bore_diameter_m: 0.254 * 1.05 });
+    expect(wide.thrustRatio - 1).toBeLessThan(0.3 * (ref.thrustRatio - 1));
     const steep = at({ exit_diameter_m: 0.3, length_m: 0.06 });
-    expect(steep.diffuserHalfAngleDeg).toBeGreaterThan(SIM_DEFAULTS.diffuser_max_half_angle_deg);
-    expect(steep.sigmaEffective).toBeLessThan(steep.sigma);
-    const huge = at({ exit_diameter_m: 0.4, length_m: 2 });
-    expect(huge.sigmaEffective).toBeLessThanOrEqual(SIM_DEFAULTS.duct_sigma_limit);
+    expect(steep.diffuserHalfAngleDeg * 2).toBeGreaterThan(steep.stallOnsetTotalDeg);
+    expect(steep.sigmaCredited).toBeLessThan(steep.sigma);
+    expect(steep.stallPenalty).toBeGreaterThan(0);
+    // A fully stalled diffuser is worse than the straight duct of the same bore and length.
+    const straight = at({ exit_diameter_m: base.bore_diameter_m, length_m: 0.04 });
+    const stalled = at({ exit_diameter_m: 0.33, length_m: 0.04 });
+    expect(stalled.diffuserCredit).toBe(0);
+    expect(stalled.thrustRatio).toBeLessThan(straight.thrustRatio);
   });
 });
 

@@ -9,14 +9,15 @@
 //   below about 1 %. The geometric pitch itself (the twist) is not small-angle; it is used as given.
 // - Each annulus balances blade-element thrust with momentum thrust. Open rotor, far-wake contraction:
 //       dCT = 4 F lambda^2 x dx.
-//   Ducted rotor (momentum.ts): the rotor carries 1/(2 sigma) of the total thrust and its inflow follows the
-//   ducted balance T_rotor = rho A v^2 / (2 sigma^2), so per annulus
-//       dCT_rotor = (1 / sigma^2) F lambda^2 x dx,        total thrust = 2 sigma * rotor thrust.
-//   sigma here is the effective exit-area ratio from duct-losses.ts, which already folds in the tip gap,
-//   the inlet lip and the diffuser limit; at sigma = 0.5 both relations are the same.
+//   Ducted rotor (momentum.ts, duct-losses.ts): with internal total-pressure losses K (on the rotor-plane
+//   head) the rotor carries (1 + K sigma^2) / (2 sigma) of the total thrust and its inflow follows the
+//   balance T_rotor = rho A v^2 (1 + K sigma^2) / (2 sigma^2), so per annulus
+//       dCT_rotor = ((1 + K sigma^2) / sigma^2) F lambda^2 x dx,   total thrust = 2 sigma / (1 + K sigma^2) * rotor.
+//   sigma here is the effective exit-area ratio from duct-losses.ts (tip gap, diffuser separation and
+//   realisation folded in); at sigma = 0.5 and K = 0 both relations are the same.
 //   With the blade-element side dCT = (sigma_l a / 2)(theta_e x - lambda) x dx (sigma_l = Nb c / (pi R),
 //   theta_e = pitch - zero-lift angle), each annulus has the closed form
-//       lambda = (b / 2) (sqrt(1 + 4 theta_e x / b) - 1),  b = sigma_l a / (2 K F),  K = 4 or 1 / sigma^2.
+//       lambda = (b / 2) (sqrt(1 + 4 theta_e x / b) - 1),  b = sigma_l a / (2 K F),  K = 4 or (1 + K_loss sigma^2) / sigma^2.
 //   F depends on lambda, so the closed form is iterated to a fixed point (a few iterations).
 // - Stall: if the resulting lift coefficient exceeds clMax, the annulus is re-solved with CL = clMax, which
 //   is again closed form (K F lambda^2 = sigma_l clMax x / 2).
@@ -52,7 +53,13 @@ export interface BladeDefinition {
 /** How the rotor's inflow is set: free (open) or by a duct of effective exit-area ratio sigma. */
 export type InflowModel =
   | { kind: 'open' }
-  | { kind: 'ducted'; sigmaEffective: number; tipLossWeight: number };
+  | {
+      kind: 'ducted';
+      sigmaEffective: number;
+      tipLossWeight: number;
+      /** Total-pressure loss inside the duct on the rotor-plane dynamic head (duct-losses.ts); default 0. */
+      lossCoefficient?: number;
+    };
 
 /** Free factors that calibration adjusts. */
 export interface AeroFactors {
@@ -215,9 +222,15 @@ export function prepareRotor(blade: BladeDefinition, inflowModel: InflowModel, o
   if (inflowModel.kind === 'ducted') {
     const s = inflowModel.sigmaEffective;
     if (!(s > 0 && Number.isFinite(s))) throw new RangeError('sigmaEffective: must be a positive finite number');
-    K = 1 / (s * s);
+    // The loss coefficient may be an equivalent one (duct-losses.ts: a gap's blend of the duct and the open
+    // rotor), below zero; the balance only needs 1 + K s^2 > 0.
+    const loss = inflowModel.lossCoefficient ?? 0;
+    if (!(Number.isFinite(loss) && 1 + loss * s * s > 0)) throw new RangeError('lossCoefficient: must be finite with 1 + K sigma^2 > 0');
+    // Ducted balance with internal losses (duct-losses.ts): T_rotor = rho A v^2 (1 + K s^2) / (2 s^2),
+    // total thrust 2 s / (1 + K s^2) times the rotor's.
+    K = (1 + loss * s * s) / (s * s);
     tipWeight = Math.min(1, Math.max(0, inflowModel.tipLossWeight));
-    thrustMultiplier = 2 * s;
+    thrustMultiplier = (2 * s) / (1 + loss * s * s);
   }
   const a = polar.liftSlope_perRad * factors.liftFactor;
   const polarForDrag: AirfoilPolar = { ...polar, liftSlope_perRad: a };

@@ -15,14 +15,15 @@
 //
 // Besides the aerodynamic factors and the motor constants, two parameters describe parts a rig file cannot:
 // the ESC's throttle offset (motor.ts; it shows in an open sweep as rpm falling short at low throttle) and the
-// shroud realisation (duct-losses.ts). The latter only moves a ducted rig, so it is fitted on ducted points
-// with the open sweep's factors held (pass them as `model`); on an open rig the fit reports it as degenerate.
+// duct-loss coefficients (duct-losses.ts: shroudRealisation, tipGapLoss, lipLoss, diffuserRealisation). Those
+// only move a ducted rig, so they are fitted on ducted points with the open sweep's factors held (pass them as
+// `model`); on an open rig the fit reports them as degenerate.
 
 import { G0, newtonsToGramForce } from './constants.js';
 import { invertSymmetric, solveLinear } from './numeric.js';
 import { buildRigModel, measuredPower, predictAtThrottle, type MeasuredPoint, type ModelOptions, type RigModel } from './predict.js';
 import { idealPowerRatio, idealThrustRatio } from './momentum.js';
-import { DEFAULT_DUCT_LOSSES, SHROUD_REALISATION_MAX } from './duct-losses.js';
+import { DEFAULT_DUCT_LOSSES, DUCT_LOSS_RANGES } from './duct-losses.js';
 import type { RigSpec } from './rig-types.js';
 
 export type FitParameter =
@@ -32,7 +33,10 @@ export type FitParameter =
   | 'motorResistance'
   | 'motorNoLoadCurrent'
   | 'escThrottleOffset'
-  | 'shroudRealisation';
+  | 'shroudRealisation'
+  | 'tipGapLoss'
+  | 'lipLoss'
+  | 'diffuserRealisation';
 
 export const FIT_PARAMETERS: readonly FitParameter[] = [
   'liftFactor',
@@ -42,6 +46,9 @@ export const FIT_PARAMETERS: readonly FitParameter[] = [
   'motorNoLoadCurrent',
   'escThrottleOffset',
   'shroudRealisation',
+  'tipGapLoss',
+  'lipLoss',
+  'diffuserRealisation',
 ];
 
 const BOUNDS: Record<FitParameter, [number, number]> = {
@@ -51,7 +58,10 @@ const BOUNDS: Record<FitParameter, [number, number]> = {
   motorResistance: [1e-4, 20],
   motorNoLoadCurrent: [0, 50],
   escThrottleOffset: [0, 0.3],
-  shroudRealisation: [0, SHROUD_REALISATION_MAX],
+  shroudRealisation: DUCT_LOSS_RANGES.shroudRealisation as [number, number],
+  tipGapLoss: DUCT_LOSS_RANGES.tipGapLoss as [number, number],
+  lipLoss: DUCT_LOSS_RANGES.lipLoss as [number, number],
+  diffuserRealisation: DUCT_LOSS_RANGES.diffuserRealisation as [number, number],
 };
 
 export class CalibrationError extends Error {
@@ -122,7 +132,10 @@ function applyParams(base: ModelOptions, names: readonly FitParameter[], p: read
         esc.throttleOffset = v;
         break;
       case 'shroudRealisation':
-        ductLosses.shroudRealisation = v;
+      case 'tipGapLoss':
+      case 'lipLoss':
+      case 'diffuserRealisation':
+        ductLosses[name] = v;
         break;
     }
   });
@@ -142,7 +155,10 @@ function initialValue(rig: RigSpec, base: ModelOptions, name: FitParameter): num
     case 'escThrottleOffset':
       return base.esc?.throttleOffset ?? 0;
     case 'shroudRealisation':
-      return base.ductLosses?.shroudRealisation ?? DEFAULT_DUCT_LOSSES.shroudRealisation;
+    case 'tipGapLoss':
+    case 'lipLoss':
+    case 'diffuserRealisation':
+      return base.ductLosses?.[name] ?? DEFAULT_DUCT_LOSSES[name];
   }
 }
 

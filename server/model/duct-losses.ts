@@ -1,171 +1,277 @@
 // Duct losses: how far a real duct falls short of the ideal ducted momentum balance.
 //
-// The ideal ducted rotor (momentum.ts) gains everything from the exit-area ratio sigma. A real duct loses part
-// of that gain in four ways, each an explicit factor here with its own adjustable constant:
+// The ideal ducted rotor (momentum.ts) gains everything from the exit-area ratio sigma: P = T^1.5 / sqrt(4
+// sigma rho A), the rotor carrying 1 / (2 sigma) of the thrust and the inlet lip's suction the rest. A real
+// duct loses part of that in two ways, and this module computes both from the duct's four dimensions and a
+// named set of coefficients (DuctLossCoefficients, the set a ducted sweep is fitted for):
 //
-// 1. Tip clearance. Flow leaking round the blade tips through the gap both unloads the blade tips and spoils
-//    the duct's inlet suction. Gap retention eta_gap = exp(-(gap / R) / gapScale): 1 with no gap, falling
-//    quickly as the gap grows (common practice: about 1 % of the radius or less is tight). The same factor
-//    sets how much Prandtl tip loss the ducted rotor suffers (tipLossWeight = 1 - eta_gap, used by bemt.ts):
-//    a closed gap leaves the blade loaded to the tip, a wide gap behaves like an open rotor.
-// 2. Inlet lip. The duct's thrust is suction on the curved inlet lip; a sharp lip separates and loses much of
-//    it. Lip retention eta_lip = 1 - (1 - sharpLipRetention) exp(-(r_lip / R) / lipScale), rising from
-//    sharpLipRetention for a knife edge to 1 for a generous lip.
-// 3. Diffuser limit. A diffuser only recovers pressure while its flow stays attached, which bounds the
-//    half-angle (an optimum near 10 degrees was measured on small shrouds). The largest exit that attached flow
-//    can fill from the bore over the diffuser length gives sigma_attached; any sigma beyond it buys nothing.
-//    The rotor is taken to sit just behind the inlet lip and the diffuser to run from there to the exit over
-//    the duct length (the lip's own depth is not subtracted, so that a bigger lip never shortens the
-//    diffuser and costs attached expansion; the lip and the diffuser stay separate knobs).
+//   - the exit-area ratio the flow actually holds, sigma_e (tip gap, diffuser separation, realisation), and
+//   - total-pressure losses K inside the duct (inlet lip, diffuser), as a coefficient of the rotor-plane
+//     dynamic head 0.5 rho v^2.
 //
-// 4. Shroud realisation. Even a duct with a tight gap, a round lip and an attached diffuser does not deliver
-//    the whole ideal momentum-theory saving: the exit flow is not the uniform jet the ideal balance assumes
-//    (hub wake, a fast outer annulus, swirl that no stator takes out), the lip suction falls short of the
-//    potential-flow value at these low Reynolds numbers, and the diffuser recovers only part of its ideal
-//    pressure rise. None of these has a clean first-order model for a bench propeller, so they are lumped into
-//    one explicit factor, eta_s: the fraction of the ideal equal-thrust induced-power saving that is realised.
-//    With the duct's ideal power ratio r = 1 / sqrt(2 sigma_g) (sigma_g after items 1 to 3), the realised
-//    ratio is 1 - eta_s (1 - r), which defines the effective sigma the rotor works against:
-//        sigma_eff = 0.5 / (1 - eta_s (1 - 1 / sqrt(2 sigma_g)))^2.
-//    eta_s = 1 is the ideal duct, eta_s = 0 the open rotor; the mapping is monotonic in both eta_s and sigma_g,
-//    so every direction of items 1 to 3 is kept. ductEffectiveness() (calibrate.ts) measures the same kind of
-//    fraction from an open and a ducted sweep, but on electrical power and with the tip-loss relief of item 1
-//    inside it, so with a tight gap a measured effectiveness is an upper estimate of eta_s, not its value.
-//    Default 0.5. Measured MAV-scale shrouds span a wide range. A quad-shrouded rotor vehicle (Design and
-//    performance of a quad-shrouded rotor micro air vehicle, J. Aircraft, 2014; authors Hrishikeshavan, Black
-//    and Chopra and the venue from memory, the figure from its abstract) reached about 15 % more power loading
-//    than its open rotors; if its shrouds were near sigma = 1 (the abstract does not say), the ideal promised
-//    41 %, so it realised about 0.45 of the ideal saving (derived: 1 - 1/1.15 = 0.13 against
-//    1 - 0.707 = 0.29). Pereira's best shrouds (PhD thesis, University of Maryland, 2008) beat the ideal,
-//    because they also cut the rotor's non-ideal losses, while a wider gap or a sharper lip cost them much of
-//    the gain. A bench tool should not promise the optimum for a duct it knows only by four dimensions, so
-//    the default sits near the lower-middle of that range; a ducted sweep pins the value (calibrate with the
-//    'shroudRealisation' parameter, up to SHROUD_REALISATION_MAX for a shroud that beats the ideal). The
-//    removal of tip loss by a tight gap (item 1) is a separate effect and is not scaled by eta_s.
+// DERIVATION of how K enters (extends momentum.ts; mass, momentum and energy conservation in hover). Rotor
+// velocity v, exit velocity w, v = sigma_e w. Momentum of the whole control volume: T = rho sigma_e A w^2
+// (unchanged by internal losses). The rotor's pressure jump must supply the exit dynamic head and the
+// losses: dp = 0.5 rho w^2 + K 0.5 rho v^2 = 0.5 rho w^2 (1 + K sigma_e^2). So
+//     T_rotor = dp A = T (1 + K sigma_e^2) / (2 sigma_e),
+//     P = dp A v = T^1.5 (1 + K sigma_e^2) / sqrt(4 sigma_e rho A),
+// and the duct's own share of the thrust (the inlet lip's suction, net of the diffuser wall) is
+//     T_lip / T = 1 - (1 + K sigma_e^2) / (2 sigma_e),
+// which is what `lipThrustShare` reports. K = 0 is the ideal duct; sigma_e = 0.5 with K = 0 is the open rotor.
+// In the BEMT (bemt.ts) the same balance per annulus reads dCT_rotor = ((1 + K sigma_e^2) / sigma_e^2) F
+// lambda^2 x dx, and the total thrust is 2 sigma_e / (1 + K sigma_e^2) times the rotor's.
+//
+// THE TERMS, each with its coefficient in DuctLossCoefficients:
+//
+// 1. Tip gap (tipGapLoss). Leakage round the blade tips through the gap rolls up into a tip vortex that both
+//    unloads the blade tips and spoils the inlet's suction near the wall. The fraction of the duct's benefit
+//    kept is a quadratic rational function of the gap delta over the radius R:
+//        g = 1 / (1 + (tipGapLoss * delta / R)^2).
+//    Quadratic because a gap inside the blade tip's own boundary layer (a few tenths of a percent of R on
+//    these blades) leaks almost nothing, and the vortex grows with the gap once it is wider.
+//    g keeps that fraction of the tight duct's difference from the open rotor, both in induced power and in
+//    the lip's share of the thrust: r = 1 - g (1 - r_tight), s_rotor = 1 - g (1 - s_tight). So a wider gap
+//    always moves the prediction towards the open rotor (never past it) whatever the other losses, and a very
+//    wide gap is the open rotor. It also sets the blade's tip loss (tipLossWeight = 1 - g: a closed gap leaves
+//    the blade loaded to the tip, a wide one
+//    behaves like an open rotor). Default 65: 0.9 of the benefit kept at 0.5 % of the radius, half at
+//    1.5 %, a fifth at 3 %, a twelfth at 5 % (common practice: a gap near 1 % of the radius or less is tight,
+//    and performance falls quickly as it grows). Published hover tests of small shrouded rotors put most of the benefit gone within a few percent
+//    of the radius (Pereira, Hover and wind-tunnel testing of shrouded rotors for improved micro air vehicle
+//    design, PhD thesis, University of Maryland, 2008: tip clearances of about 0.1 % to 3 % of the radius,
+//    performance falling steadily with clearance; Martin and Tung, Hover performance of a small-scale ducted
+//    fan, AHS Forum 60, 2004, the same direction on a 10-inch fan; both magnitudes from memory). The old
+//    exponential form with a 5 %-of-radius scale still saved 12 % of the power at a 5 % gap, which no
+//    measurement supports. The leakage flow itself (C_d 2 pi R delta w against pi R^2 v, about 2 % of the
+//    flow at a 2 % gap) is far too small to explain this; the loss is the vortex, so the form is empirical.
+//
+// 2. Inlet lip (lipLoss). The lip's suction is the duct's thrust; a sharp lip separates and the flow enters
+//    through a vena contracta, losing total pressure. The entry loss coefficient of a rounded inlet, against
+//    lip radius over inlet diameter r/d (d taken as the rotor diameter), is the handbook table below (Crane Technical Paper 410, "Flow of
+//    fluids", entrance losses; the same values in White, Fluid Mechanics, ch. 6; from memory): sharp 0.5,
+//    0.02: 0.28, 0.04: 0.24, 0.06: 0.15, 0.10: 0.09, 0.15 and over: 0.04. lipLoss multiplies the table
+//    (1 = the table). Because the lip's share is 1 - (1 + K sigma_e^2) / (2 sigma_e), this sets how much of the
+//    thrust the lip carries; the gain keeps growing up to r/d = 0.15, about 30 % of the radius (Pereira 2008
+//    found thrust at equal power still rising at his largest lip; the old model saturated by 10 % of R).
+//
+// 3. Diffuser (diffuserRealisation, separationOnset_deg, stallLoss). The diffuser runs from the rotor (just
+//    behind the lip, where the rotor sits) to the exit over the duct length, half-angle theta. Its area ratio
+//    AR = sigma. While the flow is attached it recovers diffuserRealisation (eta_d) of its ideal pressure
+//    rise 1 - 1 / AR^2, so its loss is K_d = (1 - eta_d) (1 - 1 / AR^2) on the rotor-plane head (the
+//    usual diffuser-effectiveness definition; eta_d of good short conical diffusers about 0.8 to 0.9, from
+//    memory). Default 0.85.
+//    Separation: beyond the onset half-angle theta_s the wall stalls. The stalled fraction grows linearly to
+//    full stall at twice the onset angle (diffuser stall maps, Reneau, Johnston and Kline, J. Basic Eng. 89,
+//    1967, put fully developed stall near twice the angle of first appreciable stall; from memory):
+//        f = clamp((theta - theta_s) / theta_s, 0, 1).
+//    A stalled wall no longer holds the jet: sigma_held = 1 + (sigma - 1)(1 - f), the
+//    attached diffuser loss is weighted by 1 - f, the recirculation behind the tips unloads them as a gap does
+//    (tipLossWeight rises to 1 at full stall), and the unsteady separated flow dissipates stallLoss times the
+//    Borda-Carnot loss (1 - 1 / AR)^2 of the expansion it failed to make (Gibson's conical-diffuser
+//    measurements, in Idelchik's Handbook of Hydraulic Resistance, reach the sudden-expansion loss at total
+//    angles of 40 to 60 degrees; from memory). Default stallLoss 0.5, because the jet leaves before it mixes
+//    out against a wall. So a fully stalled diffuser is worse than a straight duct, not just capped. Default
+//    onset 10 degrees: the optimum diffuser half-angle measured on small shrouds (Pereira 2008; Pereira and
+//    Chopra, JAHS 54(1), 2009), performance falling beyond it.
+//
+// 4. Shroud realisation (shroudRealisation). What the explicit terms leave out: an exit flow that is not
+//    the uniform jet the balance assumes (hub wake, swirl no stator removes), and lip suction short of the
+//    potential-flow value at these Reynolds numbers. A lumped fraction eta_s of the duct's difference from
+//    the open rotor, applied like the gap's: r = 1 - eta_s g (1 - r_tight), the lip's share likewise.
+//    Default 0.8. Pereira's best shrouds beat the ideal (they also cut the rotor's own non-ideal losses),
+//    hence values up to SHROUD_REALISATION_MAX; a ducted sweep pins it.
 //
 // Left out on purpose: skin friction on the duct wall. For a 0.25 m duct 0.1 m long with a 15 m/s exit jet
-// (Re about 1e5, Cf about 0.005 to 0.007 laminar to turbulent flat plate, from memory), the wall drag is
-// about 0.06 N, well under 1 % of the thrust. And a separate exit kinetic-energy (non-uniformity) factor:
-// the open rotor's wake is non-uniform too and that is already in the calibrated induced factor, so a duct-only
-// correction would count it twice; what the duct does not recover is in eta_s.
+// (Re about 1e5, Cf about 0.005 to 0.007 laminar to turbulent flat plate, from memory) the wall drag is about
+// 0.06 N, under 1 % of the thrust.
 //
-// Items 1 to 3 combine into a geometric effective exit-area ratio
-//    sigma_g = 0.5 + (min(sigma, sigma_attached) - 0.5) * eta_gap * eta_lip
-// and item 4 turns it into sigma_eff, which the ducted momentum balance in bemt.ts uses, so that every loss
-// pulls the rotor back towards the open rotor (sigma = 0.5) and never beyond it. The directions follow the
-// measured trends on small shrouded rotors (Pereira and Chopra, JAHS 54(1), 2009): more gap costs, more lip
-// radius helps, more sigma helps only until the diffuser separates. The constants are starting values, not
-// measurements; calibration against a ducted sweep is the way to pin them.
+// Geometry: everything but the gap is referred to the rotor's stream tube (the disk area and the rotor
+// diameter), since the through-flow passes the disk and the gap's annulus carries the leakage: AR = sigma,
+// the lip ratio is r_lip / D, the half-angle runs from the rotor diameter to the exit. So the bore enters
+// only through the gap (and a wider gap can never buy a gentler diffuser). For the ducts this tool sees the
+// bore is within a few percent of the rotor, and the tables' d (inlet diameter) and the rotor's differ by
+// as much.
+//
+// The coefficients are starting values, not measurements: calibrate them against a ducted sweep. The order
+// of the terms: sigma_held (separation) and K = lip + diffuser + stall give the tight duct's rotor share and
+// power ratio; the gap's g and the realisation eta_s keep their fraction of both. The BEMT takes the result as an ideal-form
+// balance (sigmaEffective, lossCoefficientEquivalent) with the same share and ratio: balance factor
+// (1 + K' s^2) / s^2 = 4 s_rotor^3 / r^2 and thrust multiplier 1 / s_rotor.
+//
+// A consequence of the energy balance, not of a coefficient: with P ~ (eta_d + sigma^2 (1 - eta_d + K_lip))
+// / sqrt(sigma) (item 3 written out) the best exit-area ratio of an attached diffuser is sigma* =
+// sqrt(eta_d / (3 (1 - eta_d + K_lip))), about 1.1 to 1.25 for the defaults and a well-rounded lip: a wider
+// exit draws more through-flow past the losses than it saves. Ducted fans are built near that.
 
 import type { DuctSpec } from './rig-types.js';
+import { interp1 } from './numeric.js';
 
-export interface DuctLossFactors {
-  /** Gap over rotor radius at which the gap retention has fallen to 1/e. */
-  gapScale: number;
-  /** Fraction of the duct benefit kept with a sharp (zero-radius) inlet lip. */
-  sharpLipRetention: number;
-  /** Lip radius over rotor radius at which the sharp-lip deficit has fallen to 1/e. */
-  lipScale: number;
-  /** Largest diffuser half-angle with attached flow, degrees. */
-  maxAttachedHalfAngle_deg: number;
-  /** Fraction of the ideal equal-thrust induced-power saving realised: 0 open rotor, 1 ideal duct (item 4). */
+/** The duct-loss coefficients of the model, by name (the set a ducted sweep is fitted for). */
+export interface DuctLossCoefficients {
+  /** Tip-gap loss: benefit kept g = 1 / (1 + (tipGapLoss * gap / R)^2). 65 loses half at 1.5 % of R. */
+  tipGapLoss: number;
+  /** Lip loss: multiplies the handbook inlet-entry loss coefficient (1 = the table). */
+  lipLoss: number;
+  /** Diffuser realisation: fraction of the ideal attached-diffuser pressure recovery realised. */
+  diffuserRealisation: number;
+  /** Diffuser half-angle at which the flow starts to separate, degrees (full stall at twice it). */
+  separationOnset_deg: number;
+  /** Loss of a fully stalled diffuser, as a multiple of the Borda-Carnot loss of its expansion. */
+  stallLoss: number;
+  /** Fraction of the remaining ideal equal-thrust induced-power saving realised: 0 open rotor, 1 ideal. */
   shroudRealisation: number;
 }
 
-export const DEFAULT_DUCT_LOSSES: Readonly<DuctLossFactors> = Object.freeze({
-  gapScale: 0.05,
-  sharpLipRetention: 0.5,
-  lipScale: 0.05,
-  maxAttachedHalfAngle_deg: 10,
-  shroudRealisation: 0.5,
+export const DEFAULT_DUCT_LOSSES: Readonly<DuctLossCoefficients> = Object.freeze({
+  tipGapLoss: 65,
+  lipLoss: 1,
+  diffuserRealisation: 0.85,
+  separationOnset_deg: 10,
+  stallLoss: 0.5,
+  shroudRealisation: 0.8,
 });
 
 /** Largest shroud realisation accepted: above 1 stands for a shroud that beats the ideal (Pereira 2008). */
 export const SHROUD_REALISATION_MAX = 1.5;
 
+/** Valid ranges of the coefficients (the fit's bounds too). */
+export const DUCT_LOSS_RANGES: Readonly<Record<keyof DuctLossCoefficients, readonly [number, number]>> = Object.freeze({
+  tipGapLoss: [0, 1000],
+  lipLoss: [0, 5],
+  diffuserRealisation: [0, 1],
+  separationOnset_deg: [1, 45],
+  stallLoss: [0, 5],
+  shroudRealisation: [0, SHROUD_REALISATION_MAX],
+});
+
+/** Merge overrides over the defaults and check every coefficient against its range. */
+export function ductLossCoefficients(over: Partial<DuctLossCoefficients> = {}): DuctLossCoefficients {
+  const c: DuctLossCoefficients = { ...DEFAULT_DUCT_LOSSES, ...over };
+  for (const key of Object.keys(DUCT_LOSS_RANGES) as (keyof DuctLossCoefficients)[]) {
+    const [lo, hi] = DUCT_LOSS_RANGES[key];
+    const v = c[key];
+    if (!(Number.isFinite(v) && v >= lo && v <= hi)) throw new RangeError(`${key}: must be within ${lo}..${hi} (got ${v})`);
+  }
+  return c;
+}
+
+/** Entry loss coefficient of a rounded inlet against lip radius over inlet (here rotor) diameter (item 2). */
+const INLET_R_OVER_D = [0, 0.02, 0.04, 0.06, 0.1, 0.15];
+const INLET_K = [0.5, 0.28, 0.24, 0.15, 0.09, 0.04];
+
 export interface DuctCondition {
   /** Geometric exit-area ratio (exit area / rotor disk area). */
   sigma: number;
-  /** The largest sigma attached diffuser flow supports for this bore and length. */
-  sigmaAttached: number;
-  /** min(sigma, sigmaAttached). */
-  sigmaLimited: number;
-  /** Exit-area ratio after the gap, lip and diffuser losses, before the shroud realisation. */
-  sigmaGeometric: number;
-  /** Exit-area ratio after all losses; what the ducted momentum balance uses. */
+  /** Diffuser half-angle from the rotor's diameter to the exit over the duct length, degrees. */
+  diffuserHalfAngle_deg: number;
+  /** Stalled fraction of the diffuser: 0 attached ... 1 fully separated. */
+  stallFraction: number;
+  /** Exit-area ratio the wall holds (after separation: towards 1, a straight duct), before the gap. */
+  sigmaHeld: number;
+  /**
+   * Exit-area ratio of the ideal-form balance the BEMT takes, with lossCoefficientEquivalent: the same rotor
+   * share and induced-power ratio as the duct with its gap (equal to sigmaHeld and lossCoefficient with the
+   * gap closed and a shroud realisation of 1).
+   */
   sigmaEffective: number;
+  lossCoefficientEquivalent: number;
+  /** Total-pressure loss coefficient on the rotor-plane dynamic head (lip + diffuser + stall). */
+  lossCoefficient: number;
+  /** Its parts, on the same head. */
+  lipLossCoefficient: number;
+  diffuserLossCoefficient: number;
+  stallLossCoefficient: number;
+  /** Share of the total thrust on the rotor blades, (1 + K sigma_e^2) / (2 sigma_e). */
+  rotorThrustShare: number;
+  /** Share carried by the duct (inlet-lip suction net of the diffuser wall), 1 - rotorThrustShare. */
+  lipThrustShare: number;
   /** The shroud realisation applied (fraction of the ideal saving). */
   shroudRealisation: number;
   /** Tip gap over rotor radius. */
   gapOverRadius: number;
+  /** Fraction of the duct's benefit the tip gap leaves. */
   gapRetention: number;
-  lipRetention: number;
-  /** 0 = no tip loss (gap closed) ... 1 = full open-rotor Prandtl tip loss. */
+  /** 0 = no tip loss (gap closed, wall attached) ... 1 = full open-rotor Prandtl tip loss. */
   tipLossWeight: number;
+  /** Induced power at equal thrust over the ideal open rotor's, by momentum theory with these losses. */
+  inducedPowerRatio: number;
+  /** The coefficients used. */
+  coefficients: DuctLossCoefficients;
 }
 
-/** Length over which the diffuser expands, m (see the comment block above). */
+/** Length over which the diffuser expands, m: the whole duct (the rotor sits just behind the lip). */
 export function diffuserLength(duct: Pick<DuctSpec, 'length_m'>): number {
   return duct.length_m;
 }
 
-export function gapRetention(gapOverRadius: number, f: DuctLossFactors = DEFAULT_DUCT_LOSSES): number {
-  return Math.exp(-Math.max(0, gapOverRadius) / f.gapScale);
+/** Fraction of the duct's benefit kept at a tip gap (item 1). */
+export function gapRetention(gapOverRadius: number, c: Pick<DuctLossCoefficients, 'tipGapLoss'> = DEFAULT_DUCT_LOSSES): number {
+  const x = c.tipGapLoss * Math.max(0, gapOverRadius);
+  return 1 / (1 + x * x);
 }
 
-export function lipRetention(lipOverRadius: number, f: DuctLossFactors = DEFAULT_DUCT_LOSSES): number {
-  return 1 - (1 - f.sharpLipRetention) * Math.exp(-Math.max(0, lipOverRadius) / f.lipScale);
+/** Inlet entry loss coefficient on the rotor-plane dynamic head, by lip radius over rotor diameter (item 2). */
+export function inletLossCoefficient(lipOverBore: number, c: Pick<DuctLossCoefficients, 'lipLoss'> = DEFAULT_DUCT_LOSSES): number {
+  return c.lipLoss * interp1(INLET_R_OVER_D, INLET_K, Math.max(0, lipOverBore));
 }
 
-/** Sigma that attached diffuser flow can reach from the bore over the diffuser length. */
-export function attachedSigma(
-  duct: Pick<DuctSpec, 'bore_diameter_m' | 'length_m'>,
-  propellerDiameter_m: number,
-  f: DuctLossFactors = DEFAULT_DUCT_LOSSES,
-): number {
-  const dMax = duct.bore_diameter_m + 2 * diffuserLength(duct) * Math.tan((f.maxAttachedHalfAngle_deg * Math.PI) / 180);
-  return (dMax / propellerDiameter_m) ** 2;
-}
-
-/**
- * Effective sigma of a duct that realises a fraction of the ideal equal-thrust power saving at sigma (item 4
- * above). Sigma at or below 0.5 (no ideal saving) is returned unchanged.
- */
-export function realisedSigma(sigma: number, realisation: number): number {
-  if (!(Number.isFinite(realisation) && realisation >= 0 && realisation <= SHROUD_REALISATION_MAX)) {
-    throw new RangeError(`shroudRealisation: must be within 0..${SHROUD_REALISATION_MAX} (got ${realisation})`);
-  }
-  if (!(sigma > 0.5)) return sigma;
-  const saving = realisation * (1 - 1 / Math.sqrt(2 * sigma));
-  return 0.5 / (1 - saving) ** 2;
+/** Stalled fraction of a diffuser at a half-angle (item 3). */
+export function stallFraction(halfAngle_deg: number, c: Pick<DuctLossCoefficients, 'separationOnset_deg'> = DEFAULT_DUCT_LOSSES): number {
+  const s = c.separationOnset_deg;
+  return Math.min(1, Math.max(0, (halfAngle_deg - s) / s));
 }
 
 /** Evaluate every duct loss for a duct around a propeller of the given diameter. */
-export function ductCondition(
-  duct: DuctSpec,
-  propellerDiameter_m: number,
-  f: DuctLossFactors = DEFAULT_DUCT_LOSSES,
-): DuctCondition {
-  const R = propellerDiameter_m / 2;
-  const sigma = (duct.exit_diameter_m / propellerDiameter_m) ** 2;
-  const sigmaAttached = attachedSigma(duct, propellerDiameter_m, f);
-  const sigmaLimited = Math.min(sigma, sigmaAttached);
-  const gapOverRadius = Math.max(0, (duct.bore_diameter_m - propellerDiameter_m) / 2 / R);
-  const eg = gapRetention(gapOverRadius, f);
-  const el = lipRetention(duct.inlet_lip_radius_m / R, f);
-  // A limited sigma below 0.5 (a nozzle) is left as it is: losses only ever move towards the open rotor.
-  const sigmaGeometric = sigmaLimited > 0.5 ? 0.5 + (sigmaLimited - 0.5) * eg * el : sigmaLimited;
-  const sigmaEffective = realisedSigma(sigmaGeometric, f.shroudRealisation);
+export function ductCondition(duct: DuctSpec, propellerDiameter_m: number, over: Partial<DuctLossCoefficients> = {}): DuctCondition {
+  const c = ductLossCoefficients(over);
+  const D = propellerDiameter_m;
+  const R = D / 2;
+  const sigma = (duct.exit_diameter_m / D) ** 2;
+  // Everything but the gap is referred to the rotor's own stream tube (disk area, rotor diameter): the
+  // through-flow passes the disk, the annulus of the gap carries the leakage. So the bore enters only
+  // through the gap, and a wider gap can never buy a gentler diffuser or a smaller entry loss.
+  const halfAngle = (Math.atan2((duct.exit_diameter_m - D) / 2, diffuserLength(duct)) * 180) / Math.PI;
+  const expanding = sigma > 1;
+  const f = expanding ? stallFraction(halfAngle, c) : 0;
+  const AR = expanding ? sigma : 1;
+  const sigmaHeld = expanding ? 1 + (sigma - 1) * (1 - f) : sigma;
+  const gapOverRadius = Math.max(0, (duct.bore_diameter_m - D) / 2 / R);
+  const g = gapRetention(gapOverRadius, c);
+  // The duct with a closed gap, losses on the rotor-plane head.
+  const lipK = inletLossCoefficient(duct.inlet_lip_radius_m / D, c);
+  const diffK = (1 - f) * (1 - c.diffuserRealisation) * (1 - 1 / (AR * AR));
+  const stallK = f * c.stallLoss * (1 - 1 / AR) ** 2;
+  const K = lipK + diffK + stallK;
+  const held2 = sigmaHeld * sigmaHeld;
+  const tightShare = (1 + K * held2) / (2 * sigmaHeld);
+  const tightRatio = (1 + K * held2) / Math.sqrt(2 * sigmaHeld);
+  // The gap and the shroud realisation keep their fractions of the tight duct's difference from the open
+  // rotor, in power and in the lip's share (items 1 and 4).
+  const kept = g * c.shroudRealisation;
+  const share = 1 - kept * (1 - tightShare);
+  const ratio = 1 - kept * (1 - tightRatio);
+  // The same state as the ideal-form balance the BEMT takes: balance factor 4 s^3 / r^2, multiplier 1 / s.
+  const balance = (4 * share ** 3) / (ratio * ratio);
+  const sigmaEffective = (ratio * ratio) / (2 * share * share);
+  const lossEquivalent = (balance * sigmaEffective * sigmaEffective - 1) / (sigmaEffective * sigmaEffective);
   return {
     sigma,
-    sigmaAttached,
-    sigmaLimited,
-    sigmaGeometric,
+    diffuserHalfAngle_deg: halfAngle,
+    stallFraction: f,
+    sigmaHeld,
     sigmaEffective,
-    shroudRealisation: f.shroudRealisation,
+    lossCoefficient: K,
+    lossCoefficientEquivalent: lossEquivalent,
+    lipLossCoefficient: lipK,
+    diffuserLossCoefficient: diffK,
+    stallLossCoefficient: stallK,
+    rotorThrustShare: share,
+    lipThrustShare: 1 - share,
+    shroudRealisation: c.shroudRealisation,
     gapOverRadius,
-    gapRetention: eg,
-    lipRetention: el,
-    tipLossWeight: 1 - eg,
+    gapRetention: g,
+    tipLossWeight: 1 - g * (1 - f),
+    inducedPowerRatio: ratio,
+    coefficients: c,
   };
 }

@@ -39,14 +39,15 @@ export {
 } from './bemt.js';
 export {
   DEFAULT_DUCT_LOSSES,
+  DUCT_LOSS_RANGES,
+  ductLossCoefficients,
   ductCondition,
   gapRetention,
-  lipRetention,
-  attachedSigma,
+  inletLossCoefficient,
+  stallFraction,
   diffuserLength,
-  realisedSigma,
   SHROUD_REALISATION_MAX,
-  type DuctLossFactors,
+  type DuctLossCoefficients,
   type DuctCondition,
 } from './duct-losses.js';
 export {

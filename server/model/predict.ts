@@ -11,7 +11,7 @@ import { SEA_LEVEL_AIR, type AirState } from './atmosphere.js';
 import type { AirfoilPolar } from './airfoil.js';
 import { bladeFromPropeller, omegaForThrust, prepareRotor, rotorAt, type AeroFactors, type BemtRotor, type InflowModel } from './bemt.js';
 import { newtonsToGramForce } from './constants.js';
-import { DEFAULT_DUCT_LOSSES, ductCondition, type DuctCondition, type DuctLossFactors } from './duct-losses.js';
+import { ductCondition, type DuctCondition, type DuctLossCoefficients } from './duct-losses.js';
 import { diskArea, figureOfMeritOpen, figureOfMeritShrouded, idealPowerDucted, idealPowerOpen } from './momentum.js';
 import {
   operatingPointForThrust,
@@ -32,7 +32,8 @@ export interface ModelOptions {
   air?: AirState;
   factors?: Partial<AeroFactors>;
   polar?: Partial<AirfoilPolar>;
-  ductLosses?: Partial<DuctLossFactors>;
+  /** Overrides of the duct-loss coefficients (duct-losses.ts); calibration of a ducted sweep fits these. */
+  ductLosses?: Partial<DuctLossCoefficients>;
   /** Blade stations (default 40). */
   stations?: number;
   tipLoss?: boolean;
@@ -62,8 +63,7 @@ export interface RigModel {
 export function buildRigModel(rig: RigSpec, opts: ModelOptions = {}): RigModel {
   const air = opts.air ?? SEA_LEVEL_AIR;
   const geometry = rigGeometry(rig);
-  const losses: DuctLossFactors = { ...DEFAULT_DUCT_LOSSES, ...opts.ductLosses };
-  const duct = rig.duct ? ductCondition(rig.duct, rig.propeller.diameter_m, losses) : null;
+  const duct = rig.duct ? ductCondition(rig.duct, rig.propeller.diameter_m, opts.ductLosses) : null;
   const wantTable = opts.propellerSource ?? 'auto';
   if (wantTable === 'table' && (!rig.propeller.static_table || rig.duct)) {
     throw new RangeError('propellerSource: "table" needs an open rig whose propeller has a static_table');
@@ -75,7 +75,7 @@ export function buildRigModel(rig: RigSpec, opts: ModelOptions = {}): RigModel {
     load = tableLoad(rig.propeller.static_table!, rig.propeller.diameter_m, air);
   } else {
     const inflow: InflowModel = duct
-      ? { kind: 'ducted', sigmaEffective: duct.sigmaEffective, tipLossWeight: duct.tipLossWeight }
+      ? { kind: 'ducted', sigmaEffective: duct.sigmaEffective, tipLossWeight: duct.tipLossWeight, lossCoefficient: duct.lossCoefficientEquivalent }
       : { kind: 'open' };
     const r = prepareRotor(bladeFromPropeller(rig.propeller), inflow, {
       stations: opts.stations,
@@ -136,6 +136,10 @@ export interface PredictedPoint extends OperatingPoint, IdealReference {
   figureOfMerit: number;
   /** Shrouded-form figure of merit (ducted rigs), else null. */
   figureOfMeritShrouded: number | null;
+  /** Thrust on the rotor blades, N (all of it for an open rig). */
+  rotorThrust_N: number;
+  /** Thrust on the duct (inlet-lip suction net of the diffuser wall), N; null for an open rig. */
+  lipThrust_N: number | null;
 }
 
 function decorate(model: RigModel, op: OperatingPoint): PredictedPoint {
@@ -146,7 +150,15 @@ function decorate(model: RigModel, op: OperatingPoint): PredictedPoint {
   const fm = op.powerShaft_W > 0 ? figureOfMeritOpen(op.thrust_N, op.powerShaft_W, rho, A) : 0;
   const fms =
     sigma === null ? null : op.powerShaft_W > 0 ? figureOfMeritShrouded(op.thrust_N, op.powerShaft_W, rho, A, sigma) : 0;
-  return { ...op, ...ref, figureOfMerit: fm, figureOfMeritShrouded: fms };
+  const rotorShare = model.duct ? model.duct.rotorThrustShare : 1;
+  return {
+    ...op,
+    ...ref,
+    figureOfMerit: fm,
+    figureOfMeritShrouded: fms,
+    rotorThrust_N: op.thrust_N * rotorShare,
+    lipThrust_N: model.duct ? op.thrust_N * (1 - rotorShare) : null,
+  };
 }
 
 /** Prediction at one throttle (and optionally a measured bus voltage). */

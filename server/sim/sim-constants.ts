@@ -76,18 +76,15 @@ export interface SimConstants {
   polarisation_fraction: number;
   polarisation_time_s: number;
 
-  // ---- duct
-  /** Fraction of the ideal momentum-theory benefit a perfect (tight, well-lipped) duct realises. */
+  // ---- duct (tables in truth.ts; these scale them)
+  /** Fraction of the tabulated augmentation a perfect (tight, well-lipped) duct realises. */
   duct_efficiency: number;
-  /** Realised benefit falls as exp(-gap / (duct_clearance_scale * R)). */
-  duct_clearance_scale: number;
-  /** Realised benefit: 1 - duct_lip_penalty * exp(-lip / (duct_lip_scale * D)). */
+  /** Multiplies the tip gap before the gap table is read (2: the duct behaves as if its gap were twice as wide). */
+  duct_gap_sensitivity: number;
+  /** Divides the lip radius before the lip table is read (2: a lip needs to be twice as large for the same effect). */
   duct_lip_scale: number;
-  duct_lip_penalty: number;
-  /** Diffuser half-angle beyond which the flow separates and the exit area stops counting. */
-  diffuser_max_half_angle_deg: number;
-  /** Highest effective exit-area ratio the diffuser can hold attached. */
-  duct_sigma_limit: number;
+  /** Multiplies the diffuser's tabulated stall-onset angle. */
+  diffuser_stall_factor: number;
   /** Rotor plane position from the inlet, as a fraction of the duct length. */
   duct_rotor_position: number;
   /** Wall friction: thrust lost per unit of length / diameter. */
@@ -163,11 +160,9 @@ export const SIM_DEFAULTS: Readonly<SimConstants> = Object.freeze({
   polarisation_time_s: 15,
 
   duct_efficiency: 0.85,
-  duct_clearance_scale: 0.02,
-  duct_lip_scale: 0.04,
-  duct_lip_penalty: 0.6,
-  diffuser_max_half_angle_deg: 10,
-  duct_sigma_limit: 1.5,
+  duct_gap_sensitivity: 1,
+  duct_lip_scale: 1,
+  diffuser_stall_factor: 1,
   duct_rotor_position: 0.3,
   duct_wall_friction: 0.01,
 
@@ -236,11 +231,9 @@ const RULES: { [K in keyof SimConstants]: Rule } = {
   polarisation_fraction: { min: 0, max: 5 },
   polarisation_time_s: { min: 0.1, max: 10000 },
   duct_efficiency: { min: 0, max: 1 },
-  duct_clearance_scale: { min: 0.0001, max: 10 },
-  duct_lip_scale: { min: 0.0001, max: 10 },
-  duct_lip_penalty: { min: 0, max: 1 },
-  diffuser_max_half_angle_deg: { min: 0, max: 45 },
-  duct_sigma_limit: { min: 0.5, max: 5 },
+  duct_gap_sensitivity: { min: 0, max: 10 },
+  duct_lip_scale: { min: 0.01, max: 10 },
+  diffuser_stall_factor: { min: 0.1, max: 5 },
   duct_rotor_position: { min: 0, max: 1 },
   duct_wall_friction: { min: 0, max: 1 },
   thrust_noise_n: { min: 0, max: 100 },

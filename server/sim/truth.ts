@@ -3,7 +3,7 @@
 // predictor has to discover by calibration: Reynolds-dependent propeller coefficients, a profile-drag
 // factor, speed-dependent iron losses, winding resistance rising with temperature (two-node thermal model),
 // battery sag with a slow polarisation part and state of charge, an ESC start dead-band and braking, and a
-// duct that realises only part of the momentum-theory benefit. Pure numbers: no clocks, no I/O, no noise
+// duct whose response is tabulated (ductFactors below), sharing no formula with the model. Pure numbers: no clocks, no I/O, no noise
 // (sensor noise and offsets belong to the sensors, not to the physics).
 
 import type { RigSpec } from '../model/rig-types.js';
@@ -41,51 +41,149 @@ export function lipoCellOcv(soc: number): number {
 export interface DuctFactors {
   /** Geometric exit-area ratio. */
   sigma: number;
-  /** Exit-area ratio the diffuser actually holds (limited, and reduced when it separates). */
-  sigmaEffective: number;
-  /** Fraction of the ideal benefit realised (efficiency x lip x clearance). */
-  realisation: number;
-  /** Induced power at equal thrust, ducted over open. */
-  inducedPowerRatio: number;
-  /** Thrust multiplier at equal shaft power (and so at equal rpm in this model). */
+  /** Exit-area ratio the diffuser is credited with after stall (between the bore's and the exit's). */
+  sigmaCredited: number;
+  /** Fraction of the augmentation the tip gap leaves (table GAP_RETENTION). */
+  gapKept: number;
+  /** Fraction of the augmentation the inlet lip leaves (table LIP_RETENTION). */
+  lipKept: number;
+  /** Fraction of the exit area beyond the bore the diffuser is credited with (table DIFFUSER_CREDIT). */
+  diffuserCredit: number;
+  /** Fraction of the thrust a stalled diffuser costs (table STALL_PENALTY). */
+  stallPenalty: number;
+  /** Thrust multiplier at equal rpm and so at equal shaft power: what the truth applies. */
   thrustRatio: number;
   tipClearanceM: number;
+  /** Half-angle of the diffuser behind the rotor, degrees. */
   diffuserHalfAngleDeg: number;
+  /** Total included angle at which this diffuser starts to stall, degrees (shorter diffusers hold more). */
+  stallOnsetTotalDeg: number;
 }
 
-/**
- * Duct truth. Momentum theory gives P_ducted / P_open = 1 / sqrt(2 sigma) at equal thrust; this duct realises
- * only part of that gap, less with a wide tip gap, more with a generous inlet lip, and a diffuser that opens
- * faster than it can hold attached flow loses its extra exit area.
- */
+// The bench's duct is a TABULATED RESPONSE of its own, deliberately unlike the prediction model
+// (server/model/duct-losses.ts, which works from a momentum balance with loss coefficients): the thrust a
+// duct adds at the same rotor speed, read from tables against the tip gap over the radius, the lip radius
+// over the radius, the exit-area ratio and the diffuser's stall margin in total included angle. The shapes
+// are invented but follow the published hover tests of small shrouded rotors and ducted fans (tight gaps
+// nearly free, most of the gain gone by a few percent of the radius; lip gains growing to about a third of
+// the radius; an optimum diffuser, and stall that costs thrust), so that a model calibrated against this
+// bench has to find its duct by measurement, not by sharing a formula. Nothing here is imported from the
+// model (test/sim-independence.test.ts).
+
+/** Thrust at equal rotor speed over the open rotor's, for a perfect duct, by credited exit-area ratio. */
+const AUGMENTATION: readonly [number, number][] = [
+  [0.5, 1.0],
+  [0.7, 1.1],
+  [0.85, 1.17],
+  [1.0, 1.22],
+  [1.15, 1.26],
+  [1.3, 1.29],
+  [1.45, 1.31],
+  [1.6, 1.32],
+  [2.0, 1.33],
+];
+
+/** Fraction of the augmentation kept, by tip gap over rotor radius. */
+const GAP_RETENTION: readonly [number, number][] = [
+  [0, 1],
+  [0.002, 0.98],
+  [0.005, 0.93],
+  [0.01, 0.8],
+  [0.015, 0.66],
+  [0.02, 0.53],
+  [0.03, 0.34],
+  [0.04, 0.22],
+  [0.06, 0.09],
+  [0.1, 0.02],
+  [0.2, 0],
+];
+
+/** Fraction of the augmentation kept, by inlet lip radius over rotor radius. */
+const LIP_RETENTION: readonly [number, number][] = [
+  [0, 0.45],
+  [0.02, 0.6],
+  [0.05, 0.74],
+  [0.1, 0.86],
+  [0.15, 0.93],
+  [0.2, 0.97],
+  [0.3, 1],
+];
+
+/** Fraction of the exit area beyond the bore that counts, by total angle beyond the stall onset, degrees. */
+const DIFFUSER_CREDIT: readonly [number, number][] = [
+  [0, 1],
+  [4, 0.8],
+  [8, 0.5],
+  [14, 0.2],
+  [20, 0],
+];
+
+/** Fraction of the thrust lost to a stalled diffuser, by total angle beyond the stall onset, degrees. */
+const STALL_PENALTY: readonly [number, number][] = [
+  [0, 0],
+  [6, 0.01],
+  [12, 0.03],
+  [20, 0.05],
+  [40, 0.07],
+];
+
+/** Stall onset total angle against diffuser length over bore: short diffusers tolerate wider angles. */
+const STALL_ONSET_BY_LENGTH: readonly [number, number][] = [
+  [0.1, 30],
+  [0.2, 25],
+  [0.35, 21],
+  [0.5, 19],
+  [1, 15],
+  [2, 11],
+];
+
+/** Piecewise-linear lookup, held at the end values. */
+function lookup(table: readonly [number, number][], x: number): number {
+  if (x <= table[0][0]) return table[0][1];
+  for (let k = 1; k < table.length; k++) {
+    const [x1, y1] = table[k];
+    if (x <= x1) {
+      const [x0, y0] = table[k - 1];
+      return y0 + ((y1 - y0) * (x - x0)) / (x1 - x0);
+    }
+  }
+  return table[table.length - 1][1];
+}
+
+/** Duct truth: the thrust multiplier at equal rotor speed, from the tables above. */
 export function ductFactors(rig: RigSpec, k: SimConstants): DuctFactors | null {
   const duct = rig.duct;
   if (!duct) return null;
   const D = rig.propeller.diameter_m;
   const R = D / 2;
-  const diskArea = (Math.PI * D * D) / 4;
-  const sigma = (Math.PI * duct.exit_diameter_m * duct.exit_diameter_m) / 4 / diskArea;
+  const sigma = (duct.exit_diameter_m / D) ** 2;
+  const sigmaBore = (duct.bore_diameter_m / D) ** 2;
   const gap = Math.max(0, (duct.bore_diameter_m - D) / 2);
+  // The diffuser starts behind the rotor, which sits duct_rotor_position of the way down from the inlet.
   const behind = Math.max(1e-6, duct.length_m * (1 - k.duct_rotor_position));
   const halfAngle = (Math.atan(Math.abs(duct.exit_diameter_m - duct.bore_diameter_m) / 2 / behind) * 180) / Math.PI;
-  let sigmaEff = Math.min(sigma, k.duct_sigma_limit);
-  if (sigmaEff > 1 && halfAngle > k.diffuser_max_half_angle_deg) {
-    // Separated diffuser: the extra exit area fades out over the next max-angle's worth of opening.
-    const over = (halfAngle - k.diffuser_max_half_angle_deg) / Math.max(1e-6, k.diffuser_max_half_angle_deg);
-    sigmaEff = 1 + (sigmaEff - 1) * Math.max(0, 1 - over);
-  }
-  // Below sigma 0.5 a "duct" is a nozzle that costs power; momentum theory still holds, so no floor needed
-  // beyond keeping the square root real.
-  sigmaEff = Math.max(0.05, sigmaEff);
-  const lip = 1 - k.duct_lip_penalty * Math.exp(-duct.inlet_lip_radius_m / (k.duct_lip_scale * D));
-  const clearance = Math.exp(-gap / (k.duct_clearance_scale * R));
-  const realisation = k.duct_efficiency * lip * clearance;
-  const idealRatio = 1 / Math.sqrt(2 * sigmaEff);
-  const inducedPowerRatio = 1 - realisation * (1 - idealRatio);
+  const onset = lookup(STALL_ONSET_BY_LENGTH, behind / duct.bore_diameter_m) * k.diffuser_stall_factor;
+  const beyond = 2 * halfAngle - onset;
+  const credit = sigma > sigmaBore ? lookup(DIFFUSER_CREDIT, beyond) : 1;
+  const penalty = sigma > sigmaBore ? lookup(STALL_PENALTY, beyond) : 0;
+  const sigmaCredited = sigma > sigmaBore ? sigmaBore + (sigma - sigmaBore) * credit : sigma;
+  const gapKept = lookup(GAP_RETENTION, (gap / R) * k.duct_gap_sensitivity);
+  const lipKept = lookup(LIP_RETENTION, duct.inlet_lip_radius_m / R / k.duct_lip_scale);
+  const augmentation = lookup(AUGMENTATION, sigmaCredited) - 1;
   const wall = Math.max(0, 1 - k.duct_wall_friction * (duct.length_m / D));
-  // Equal induced power P ~ r T^1.5: the same rotor work buys r^(-2/3) more thrust.
-  const thrustRatio = Math.pow(inducedPowerRatio, -2 / 3) * wall;
-  return { sigma, sigmaEffective: sigmaEff, realisation, inducedPowerRatio, thrustRatio, tipClearanceM: gap, diffuserHalfAngleDeg: halfAngle };
+  const thrustRatio = (1 + augmentation * k.duct_efficiency * gapKept * lipKept) * (1 - penalty) * wall;
+  return {
+    sigma,
+    sigmaCredited,
+    gapKept,
+    lipKept,
+    diffuserCredit: credit,
+    stallPenalty: penalty,
+    thrustRatio,
+    tipClearanceM: gap,
+    diffuserHalfAngleDeg: halfAngle,
+    stallOnsetTotalDeg: onset,
+  };
 }
 
 /** Everything the physics knows at one instant (SI units; temperatures in degC). */
