@@ -68,11 +68,16 @@ function powersAt(rig: RigSpec, thrust: number, ductLosses?: Partial<DuctLossCoe
   return { shaft: m.load.torqueAt(w) * w, electrical: op ? op.powerElectrical_W : null };
 }
 
-const tol = 1e-9;
+// Relative slack for round-off: the BEMT iterates its inflow and tip loss to about 1e-12 and solves the
+// speed for the thrust, which leaves differences of order 1e-9 in power between nearly equal ducts.
+const tol = 1e-7;
 
-/** Whether the duct saves induced power against the open rotor at all (momentum balance with losses). */
+/**
+ * Whether the duct saves induced power against the open rotor (momentum balance with losses), by at least
+ * 1 %: at a ratio of 1 the duct's terms cancel and the BEMT's round-off decides the direction.
+ */
 function helps(rig: RigSpec, ductLosses?: Partial<DuctLossCoefficients>): boolean {
-  return buildRigModel(rig, { ductLosses }).duct!.inducedPowerRatio < 1;
+  return buildRigModel(rig, { ductLosses }).duct!.inducedPowerRatio < 0.99;
 }
 
 describe('duct loss directions', () => {
@@ -221,7 +226,10 @@ describe('duct loss directions', () => {
         // For a duct that helps at all: realising more of a duct that costs power costs more.
         fc.pre(helps(rig));
         const a = powersAt(rig, c.thrust, { shroudRealisation: eta });
-        const b = powersAt(rig, c.thrust, { shroudRealisation: eta + more });
+        // Up to the ideal (1): beyond it, on a light-loaded low-pitch rotor, the duct unloads the blade so far
+        // that it must spin faster and its profile power outgrows the induced saving (the mismatched-propeller
+        // case of the header).
+        const b = powersAt(rig, c.thrust, { shroudRealisation: Math.min(1, eta + more) });
         expect(b.shaft).toBeLessThanOrEqual(a.shaft * (1 + tol));
         const wide = powersAt(rigFor(c, c.gap + 0.02, c.lip), c.thrust, { shroudRealisation: eta });
         expect(wide.shaft).toBeGreaterThanOrEqual(a.shaft * (1 - tol));

@@ -14,6 +14,7 @@ import {
   ductEffectiveness,
   fitOpenPredictDuct,
   newtonsToGramForce,
+  predictAtThrusts,
   DEFAULT_DUCT_LOSSES,
   type FitParameter,
   type MeasuredPoint,
@@ -26,6 +27,16 @@ import { DEFAULT_DUCTED_RIG, DEFAULT_OPEN_RIG } from '../server/sim/default-rigs
 import { BenchHost } from '../server/sim/host-harness.js';
 
 const THROTTLES = [0.3, 0.4, 0.5, 0.6, 0.7, 0.8, 0.9];
+/**
+ * Largest |deviation| of the calibrated model's grams per watt from the bench's, over every ducted point, %.
+ * Re-measured when the bench's duct became a table of its own (server/sim/truth.ts) instead of sharing the
+ * model's duct formulas, which made the earlier "within 10 %" partly true by construction. Measured on
+ * 2026-12-02: 4.4 % max (3.5 % RMS) on the default duct, 6.3 % max (3.5 % RMS) over the 20 ducts of the
+ * geometry test below (the sharp lip, the widest lips and the diffuser just past its onset are the worst).
+ * Other seeds (7/8, 77, 140+) gave 3.8 % and 6.5 %. Rounded up to the next whole percent; the seeds are
+ * fixed, so the figure is reproducible.
+ */
+const WITHIN_PERCENT = 7;
 const SETTLE_MS = 1800;
 const AVERAGE_MS = 500;
 
@@ -107,8 +118,7 @@ describe('model against the virtual bench: calibrate on the open sweep, predict 
   let openModel: RigModel;
   let ductModel: RigModel;
   beforeAll(() => {
-    // Seeds of the bench's sensor noise. Other pairs (1/2, 5/6, 7/8, 11/12, 21/22, 100/200, 999/1000) gave a
-    // ducted max |deviation| of 4.9 to 8.0 % when this test was written.
+    // Seeds of the bench's sensor noise.
     openPts = measureSweep(DEFAULT_OPEN_RIG, 3);
     ductPts = measureSweep(DEFAULT_DUCTED_RIG, 4);
     ({ fit, openModel, ductModel } = fitOpenPredictDuct(openRig, ductRig, openPts, { parameters }));
@@ -147,10 +157,9 @@ describe('model against the virtual bench: calibrate on the open sweep, predict 
     expect(fit.rmsPercent.thrust).toBeCloseTo(rms(after.thrust), 6);
   });
 
-  it('the calibrated model predicts the ducted grams per watt within 10 % at every point of the sweep', () => {
+  it(`the calibrated model predicts the ducted grams per watt within ${WITHIN_PERCENT} % at every point of the sweep`, () => {
     const predicted = deviations(ductModel, ductPts);
-    // The same calibrated propeller in a duct that realises the whole ideal momentum saving: what the model
-    // predicted before it had a shroud-realisation loss.
+    // The same calibrated propeller with a shroud realisation of 1 (the explicit duct losses only).
     const idealOpts: ModelOptions = { ...fit.modelOptions, ductLosses: { ...fit.modelOptions.ductLosses, shroudRealisation: 1 } };
     const ideal = deviations(buildRigModel(ductRig, idealOpts), ductPts);
     const rows = ductPts.map(
@@ -162,15 +171,15 @@ describe('model against the virtual bench: calibrate on the open sweep, predict 
     console.log(
       [
         `ducted sweep: measured g/W vs prediction from the open calibration, % (shroud realisation ${DEFAULT_DUCT_LOSSES.shroudRealisation} by default)`,
-        ' thr   thrust      power      measured   ideal-duct  default  default at equal thrust',
+        ' thr   thrust      power      measured   realis. 1   default  default at equal thrust',
         ...rows,
-        ` max |dev|  ideal-duct ${maxAbs(ideal.gpw).toFixed(1)}  default ${maxAbs(predicted.gpw).toFixed(1)}`,
-        ` RMS        ideal-duct ${rms(ideal.gpw).toFixed(1)}  default ${rms(predicted.gpw).toFixed(1)}`,
+        ` max |dev|  realis. 1 ${maxAbs(ideal.gpw).toFixed(1)}  default ${maxAbs(predicted.gpw).toFixed(1)}`,
+        ` RMS        realis. 1 ${rms(ideal.gpw).toFixed(1)}  default ${rms(predicted.gpw).toFixed(1)}`,
       ].join('\n'),
     );
     expect(ductModel.duct!.shroudRealisation).toBe(DEFAULT_DUCT_LOSSES.shroudRealisation);
-    expect(maxAbs(predicted.gpw)).toBeLessThan(10);
-    expect(maxAbs(predicted.gpwEqualThrust)).toBeLessThan(10);
+    expect(maxAbs(predicted.gpw)).toBeLessThan(WITHIN_PERCENT);
+    expect(maxAbs(predicted.gpwEqualThrust)).toBeLessThan(WITHIN_PERCENT);
     // The realisation loss is what moved the prediction onto the measurement, not noise.
     expect(rms(predicted.gpw)).toBeLessThan(rms(ideal.gpw));
   });
@@ -193,9 +202,166 @@ describe('model against the virtual bench: calibrate on the open sweep, predict 
     );
     expect(eta).toBeGreaterThan(0);
     expect(eta).toBeLessThan(1);
-    expect(maxAbs(rest.gpw)).toBeLessThan(10);
+    expect(maxAbs(rest.gpw)).toBeLessThan(WITHIN_PERCENT);
     // Both say the duct realises clearly less than the ideal saving.
     expect(measured.effectiveness).toBeGreaterThan(0);
     expect(measured.effectiveness).toBeLessThan(1);
+  });
+});
+
+// ---------------------------------------------------------------------------------------------------------
+// The same workflow across duct geometries: one open calibration, then for each duct a ducted sweep on the
+// bench and the model's prediction with its default duct-loss coefficients. The bench's duct is a table of its
+// own (server/sim/truth.ts), the model's a momentum balance with loss coefficients (server/model/
+// duct-losses.ts); test/sim-independence.test.ts keeps them apart, so agreement here is earned.
+
+interface DuctVariant {
+  group: 'tip gap' | 'lip radius' | 'exit-area ratio';
+  label: string;
+  duct: NonNullable<RigSpec['duct']>;
+}
+
+const BASE_DUCT = DEFAULT_DUCTED_RIG.duct!;
+const D_PROP = DEFAULT_DUCTED_RIG.propeller.diameter_m;
+const R_PROP = D_PROP / 2;
+
+function variants(): DuctVariant[] {
+  const out: DuctVariant[] = [];
+  const wall = BASE_DUCT.exit_diameter_m - BASE_DUCT.bore_diameter_m;
+  for (const pct of [0.2, 0.63, 1, 2, 3, 5]) {
+    // The same diffuser wall (exit minus bore) at every gap.
+    const bore = D_PROP + 2 * R_PROP * (pct / 100);
+    out.push({ group: 'tip gap', label: `${pct} % R`, duct: { ...BASE_DUCT, bore_diameter_m: bore, exit_diameter_m: bore + wall } });
+  }
+  for (const mm of [0, 5, 12, 18, 25, 35]) {
+    out.push({ group: 'lip radius', label: `${mm} mm (${((mm / 1000 / R_PROP) * 100).toFixed(0)} % R)`, duct: { ...BASE_DUCT, inlet_lip_radius_m: mm / 1000 } });
+  }
+  for (const sigma of [1.013, 1.1, 1.2, 1.3, 1.45, 1.6]) {
+    const exit = D_PROP * Math.sqrt(sigma);
+    const half = (Math.atan((exit - BASE_DUCT.bore_diameter_m) / 2 / BASE_DUCT.length_m) * 180) / Math.PI;
+    out.push({ group: 'exit-area ratio', label: `${sigma.toFixed(2)} (${half.toFixed(0)} deg, L 100 mm)`, duct: { ...BASE_DUCT, exit_diameter_m: exit } });
+  }
+  // A short duct: straight, and opened at 40 degrees half-angle.
+  const short = 0.03;
+  out.push({ group: 'exit-area ratio', label: `1.01 (straight, L 30 mm)`, duct: { ...BASE_DUCT, length_m: short, exit_diameter_m: BASE_DUCT.bore_diameter_m } });
+  const wide = BASE_DUCT.bore_diameter_m + 2 * short * Math.tan((40 * Math.PI) / 180);
+  out.push({ group: 'exit-area ratio', label: `${((wide / D_PROP) ** 2).toFixed(2)} (40 deg, L 30 mm)`, duct: { ...BASE_DUCT, length_m: short, exit_diameter_m: wide } });
+  return out;
+}
+
+/** Power at a thrust from measured points, interpolated in log-log (thrust grows near power^(2/3)). */
+function powerAtThrust(pts: readonly MeasuredPoint[], thrust: number): { power: number; voltage: number } {
+  const s = [...pts].sort((a, b) => a.thrust_N - b.thrust_N);
+  let k = 1;
+  while (k < s.length - 1 && s[k].thrust_N < thrust) k++;
+  const a = s[k - 1];
+  const b = s[k];
+  const t = (Math.log(thrust) - Math.log(a.thrust_N)) / (Math.log(b.thrust_N) - Math.log(a.thrust_N));
+  return {
+    power: Math.exp(Math.log(a.power_W!) + t * (Math.log(b.power_W!) - Math.log(a.power_W!))),
+    voltage: a.busVoltage_V + t * (b.busVoltage_V - a.busVoltage_V),
+  };
+}
+
+const PUBLISHED: Record<DuctVariant['group'], string> = {
+  // Pereira 2008 (PhD thesis, University of Maryland) and Martin and Tung 2004 (AHS Forum 60): magnitudes
+  // from memory, directions as published.
+  'tip gap': 'tight gaps nearly free; most of the benefit gone within a few % of R (Pereira 2008; Martin and Tung 2004)',
+  // Pereira 2008: performance still improving at the largest lip tested; Crane TP-410 entry loss 0.5 sharp,
+  // 0.04 rounded (from memory).
+  'lip radius': 'gain grows with lip radius over the tested range, no saturation at 10 % R (Pereira 2008)',
+  // Pereira 2008; Pereira and Chopra, JAHS 54(1), 2009: optimum diffuser half-angle near 10 degrees.
+  'exit-area ratio': 'optimum near 10 deg half-angle; a stalled diffuser costs thrust (Pereira 2008; Pereira and Chopra 2009)',
+};
+
+describe('model against the virtual bench across duct geometries (tip gap, lip radius, exit-area ratio)', () => {
+  const THRUST = 8;
+  const openRig = modelView(DEFAULT_OPEN_RIG);
+  const parameters: FitParameter[] = ['liftFactor', 'cd0Factor', 'inducedFactor', 'escThrottleOffset', 'motorNoLoadCurrent'];
+  interface Row {
+    v: DuctVariant;
+    bench: number;
+    model: number;
+    benchSaving: number;
+    modelSaving: number;
+    gpwDev: number[];
+  }
+  let rows: Row[];
+  let benchOpen: number;
+  let modelOpen: number;
+  beforeAll(() => {
+    const openPts = measureSweep(DEFAULT_OPEN_RIG, 31);
+    const fit = calibrate(openRig, openPts, { parameters });
+    const o = powerAtThrust(openPts, THRUST);
+    benchOpen = o.power;
+    modelOpen = predictAtThrusts(buildRigModel(openRig, fit.modelOptions), [THRUST], o.voltage)[0].operating!.powerElectrical_W;
+    rows = variants().map((v, i) => {
+      const benchRig: RigSpec = { ...DEFAULT_DUCTED_RIG, duct: v.duct };
+      const pts = measureSweep(benchRig, 40 + i);
+      const model = buildRigModel(modelView(benchRig), fit.modelOptions);
+      const b = powerAtThrust(pts, THRUST);
+      const m = predictAtThrusts(model, [THRUST], b.voltage)[0].operating!.powerElectrical_W;
+      const gpwDev = pts.map((p) => deviation(model, p).percent.gramsPerWatt!);
+      return { v, bench: b.power, model: m, benchSaving: 1 - b.power / benchOpen, modelSaving: 1 - m / modelOpen, gpwDev };
+    });
+    const pad = (s: string, n: number): string => s.padEnd(n);
+    console.log(
+      [
+        `electrical power at ${THRUST} N on the Millrace Lab ducted rig, model (open calibration, default duct coefficients) vs bench`,
+        ` open rotor: model ${modelOpen.toFixed(1)} W, bench ${benchOpen.toFixed(1)} W`,
+        ` ${pad('group', 16)}${pad('duct', 26)}${pad('model W', 9)}${pad('bench W', 9)}${pad('model sav', 10)}${pad('bench sav', 10)}g/W max|dev| %`,
+        ...rows.map(
+          (r) =>
+            ` ${pad(r.v.group, 16)}${pad(r.v.label, 26)}${pad(r.model.toFixed(1), 9)}${pad(r.bench.toFixed(1), 9)}` +
+            `${pad((r.modelSaving * 100).toFixed(1) + ' %', 10)}${pad((r.benchSaving * 100).toFixed(1) + ' %', 10)}${maxAbs(r.gpwDev).toFixed(1)}`,
+        ),
+        ...Object.entries(PUBLISHED).map(([g, t]) => ` published, ${g}: ${t}`),
+        ` over all ${rows.length} ducts and ${rows.length * THROTTLES.length} points: g/W max |dev| ${maxAbs(rows.flatMap((r) => r.gpwDev)).toFixed(1)} %, RMS ${rms(rows.flatMap((r) => r.gpwDev)).toFixed(1)} %`,
+      ].join('\n'),
+    );
+  });
+
+  const group = (g: DuctVariant['group']): Row[] => rows.filter((r) => r.v.group === g);
+
+  it('model and bench agree that a wider tip gap costs power, and that most of the saving is gone by 5 % of the radius', () => {
+    const g = group('tip gap');
+    for (let k = 1; k < g.length; k++) {
+      expect(g[k].model).toBeGreaterThan(g[k - 1].model);
+      expect(g[k].bench).toBeGreaterThan(g[k - 1].bench);
+    }
+    for (const key of ['modelSaving', 'benchSaving'] as const) expect(g[g.length - 1][key]).toBeLessThan(0.5 * g[0][key]);
+  });
+
+  it('model and bench agree that a larger lip saves power, still beyond 10 % of the radius', () => {
+    const g = group('lip radius');
+    for (let k = 1; k < g.length; k++) {
+      expect(g[k].model).toBeLessThanOrEqual(g[k - 1].model);
+      expect(g[k].bench).toBeLessThanOrEqual(g[k - 1].bench);
+    }
+    // 18 mm (14 % R) to 35 mm (28 % R) still helps both.
+    expect(g[5].model).toBeLessThan(g[3].model);
+    expect(g[5].bench).toBeLessThan(g[3].bench);
+  });
+
+  it('model and bench agree that a stalled 40 degree diffuser is worse than a straight duct of the same length', () => {
+    const g = group('exit-area ratio');
+    const straight = g[g.length - 2];
+    const stalled = g[g.length - 1];
+    expect(stalled.model).toBeGreaterThan(straight.model);
+    expect(stalled.bench).toBeGreaterThan(straight.bench);
+    // And both find their best exit inside the range, not at its widest (an optimum, then stall).
+    const attached = g.slice(0, 6);
+    for (const key of ['model', 'bench'] as const) {
+      const best = attached.reduce((a, b) => (b[key] < a[key] ? b : a));
+      expect(best).not.toBe(attached[attached.length - 1]);
+    }
+  });
+
+  it('the calibrated model predicts every ducted sweep within the re-measured figure', () => {
+    // Re-measured against this bench when its duct became a table of its own (the 10 % of the earlier test
+    // was against a bench that shared the model's duct formulas). The figure is the honest one, rounded up:
+    // see the printed table.
+    const all = rows.flatMap((r) => r.gpwDev);
+    expect(maxAbs(all)).toBeLessThan(WITHIN_PERCENT);
   });
 });

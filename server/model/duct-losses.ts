@@ -57,9 +57,12 @@
 // 3. Diffuser (diffuserRealisation, separationOnset_deg, stallLoss). The diffuser runs from the rotor (just
 //    behind the lip, where the rotor sits) to the exit over the duct length, half-angle theta. Its area ratio
 //    AR = sigma. While the flow is attached it recovers diffuserRealisation (eta_d) of its ideal pressure
-//    rise 1 - 1 / AR^2, so its loss is K_d = (1 - eta_d) (1 - 1 / AR^2) on the rotor-plane head (the
-//    usual diffuser-effectiveness definition; eta_d of good short conical diffusers about 0.8 to 0.9, from
-//    memory). Default 0.85.
+//    rise 1 - 1 / AR^2, so its loss is K_d = (1 - eta_d) (1 - 1 / AR^2) on the rotor-plane head (the usual
+//    diffuser-effectiveness definition). Default 0.92: Gibson's conical-diffuser measurements (in Idelchik's
+//    Handbook of Hydraulic Resistance; from memory) put the loss of a clean diffuser at its best angle near
+//    0.15 of the sudden-expansion loss, eta_d = 1 - 0.15 (AR - 1) / (AR + 1), about 0.97 for AR 1.1 to 1.5;
+//    behind a rotor, with swirl and tip vortices in the boundary layer, less. With this value the model's
+//    best diffuser on the demo rig sits near 8 degrees half-angle (test/model-duct-trends.test.ts).
 //    Separation: beyond the onset half-angle theta_s the wall stalls. The stalled fraction grows linearly to
 //    full stall at twice the onset angle (diffuser stall maps, Reneau, Johnston and Kline, J. Basic Eng. 89,
 //    1967, put fully developed stall near twice the angle of first appreciable stall; from memory):
@@ -100,7 +103,7 @@
 //
 // A consequence of the energy balance, not of a coefficient: with P ~ (eta_d + sigma^2 (1 - eta_d + K_lip))
 // / sqrt(sigma) (item 3 written out) the best exit-area ratio of an attached diffuser is sigma* =
-// sqrt(eta_d / (3 (1 - eta_d + K_lip))), about 1.1 to 1.25 for the defaults and a well-rounded lip: a wider
+// sqrt(eta_d / (3 (1 - eta_d + K_lip))), about 1.35 to 1.6 for the defaults and a well-rounded lip (r/d 0.1 to 0.15), 1.15 for a lip of r/d 0.07: a wider
 // exit draws more through-flow past the losses than it saves. Ducted fans are built near that.
 
 import type { DuctSpec } from './rig-types.js';
@@ -125,7 +128,7 @@ export interface DuctLossCoefficients {
 export const DEFAULT_DUCT_LOSSES: Readonly<DuctLossCoefficients> = Object.freeze({
   tipGapLoss: 65,
   lipLoss: 1,
-  diffuserRealisation: 0.85,
+  diffuserRealisation: 0.92,
   separationOnset_deg: 10,
   stallLoss: 0.5,
   shroudRealisation: 0.8,
