@@ -37,6 +37,7 @@ import { buildRigModel, predictAtThrottle, predictCurve, rigGeometry, type RigMo
 import { SequenceService, loadExamples } from './bench/sequence-service.js';
 import { CalibrationService, type CalibrationServiceDeps } from './bench/calibration-service.js';
 import { sessionsApi } from './http/sessions-api.js';
+import { partsApi } from './http/parts-api.js';
 import { ZeroService, ZERO_DRIFT_TAG } from './bench/zero-service.js';
 import type { ZeroRules } from './bench/zero.js';
 import type { PredictFn, RunnerOptions } from './sequence/index.js';
@@ -643,6 +644,7 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
       onSocket: (ws: WebSocket, _req: IncomingMessage) => hub.add(ws),
       api: {
         'GET /api/status': async () => ({ status: 200, body: { bench: controller.view(), link: link.view(), identity: link.identity } }),
+        ...(mounts.library ? partsApi(mounts.library) : {}),
         ...(store
           ? sessionsApi({ store, recordingId: () => sessions?.sessionId ?? null })
           : {

@@ -150,6 +150,16 @@ describe('the mount from the dashboard', () => {
     expect(s.mount.map((m) => [m.slot, m.part_id, m.revision])).toEqual([...open.slots.filter((x) => x.part_id !== null).map((x) => [x.slot, x.part_id, 1]), ['duct', ductId, 1]]);
     expect(s.rig.name).toBe('Millrace with KD-1');
     expect(s.rig.duct).toMatchObject({ inlet_lip_radius_m: 0.012 });
+    // the sessions a part revision ran in, and the part's record, over HTTP
+    const api = (path: string) => fetch(`http://127.0.0.1:${d.port}${path}${path.includes('?') ? '&' : '?'}token=${d.token}`).then(async (r) => ({ status: r.status, body: (await r.json()) as Record<string, unknown> }));
+    const byPart = await api(`/api/sessions?part=${ductId}@1`);
+    expect((byPart.body.sessions as { id: number }[]).map((x) => x.id)).toEqual([sid]);
+    expect((await api(`/api/sessions?part=${ductId}@2`)).body.sessions).toEqual([]);
+    expect(await api('/api/sessions?part=KD-1')).toMatchObject({ status: 400, body: { field: 'part' } });
+    const part = await api(`/api/parts/${ductId}`);
+    expect(part.body).toMatchObject({ sessions: [sid], revisions: [{ revision: 1, name: 'KD-1', used_by: 1 }] });
+    expect((await api('/api/parts?kind=duct')).body.parts).toHaveLength(1);
+    expect((await api('/api/parts/9999')).status).toBe(404);
     // revise the duct through the library (as `ductbench parts edit` does, alongside the daemon)
     const store = SessionStore.open(dir, { recover: false });
     try {

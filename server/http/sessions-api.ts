@@ -66,7 +66,7 @@ function parseNumber(raw: string, field: string, min: number, max: number, integ
   return n;
 }
 
-const LIST_PARAMS = new Set(['token', 'tag', 'text', 'rig', 'outcome', 'from', 'to', 'limit', 'offset']);
+const LIST_PARAMS = new Set(['token', 'tag', 'text', 'rig', 'part', 'outcome', 'from', 'to', 'limit', 'offset']);
 
 export function listFilter(q: URLSearchParams): ListFilter {
   for (const k of q.keys()) if (!LIST_PARAMS.has(k)) throw new BadRequest(`unknown parameter ${JSON.stringify(k)} (known: ${[...LIST_PARAMS].filter((p) => p !== 'token').join(', ')})`, k);
@@ -77,6 +77,14 @@ export function listFilter(q: URLSearchParams): ListFilter {
   if (text) f.text = text;
   const rig = q.get('rig');
   if (rig) f.rig = rig;
+  const part = q.get('part');
+  if (part) {
+    // A library part, or one revision of it: part=12 or part=12@3.
+    const m = /^([1-9][0-9]{0,15})(?:@([1-9][0-9]{0,8}))?$/.exec(part);
+    if (!m) throw new BadRequest('part must be a part id, optionally @revision (e.g. 12 or 12@3)', 'part');
+    f.part = Number(m[1]);
+    if (m[2] !== undefined) f.partRevision = Number(m[2]);
+  }
   const outcome = q.get('outcome');
   if (outcome) {
     const outs = outcome.split(',').map((o) => o.trim());
