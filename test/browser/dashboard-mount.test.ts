@@ -123,6 +123,10 @@ describe('mounting from the dashboard', () => {
       expect(s.session.mount.find((m) => m.slot === 'duct')).toMatchObject({ name: 'KD-1', revision: 1 });
       expect(s.session.mount.every((m) => m.revision === 1)).toBe(true);
       expect(s.session.rig.duct?.exit_diameter_m).toBe(0.2664);
+      // the Sessions view shows the parts the run recorded, with their revisions
+      await viewer.page.getByTestId('view-sessions').click();
+      await viewer.page.getByTestId(`open-${sid}`).click();
+      await eventually(() => text(viewer.page, 'session-parts'), (t) => /duct KD-1 \(#\d+ r1\)$/.test(t), 'the parts of the session');
       expect(ctl.errors).toEqual([]);
       expect(viewer.errors).toEqual([]);
     } finally {

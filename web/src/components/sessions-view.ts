@@ -344,6 +344,11 @@ export class DbSessionsView extends LitElement {
           <span class="badge ${outcomeTone(s.outcome)}">${s.outcome}</span>
           <span class="muted">${when(s.started_at)} to ${when(s.ended_at)} · rig ${s.rig_name ?? '—'} · ${s.sample_count} samples · ${s.point_count} points${s.atmosphere?.density_kg_m3 ? ` · air ${Number(s.atmosphere.density_kg_m3).toFixed(3)} kg/m³` : ''}</span>
         </div>
+        ${s.mount?.length
+          ? html`<p class="muted" data-testid="session-parts">
+              Parts: ${s.mount.map((m) => `${m.slot} ${m.name} (#${m.part_id} r${m.revision})`).join(' · ')}
+            </p>`
+          : ''}
         <div class="row">
           <label style="flex:1 1 16rem">Title<input type="text" data-testid="edit-title" .value=${e.title} @input=${(ev: Event) => (this._edit = { ...e, title: (ev.target as HTMLInputElement).value })} /></label>
           <label style="flex:1 1 12rem">Tags, comma-separated<input type="text" data-testid="edit-tags" .value=${e.tags} @input=${(ev: Event) => (this._edit = { ...e, tags: (ev.target as HTMLInputElement).value })} /></label>
