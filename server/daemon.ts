@@ -33,7 +33,10 @@ import { CalibrationHistory, calibrationWarnings } from './calibration/history.j
 import { resolveAtmosphere, type Atmosphere, type AtmosphereInput } from './bench/atmosphere.js';
 import { parseLimits, type Limits } from './interlocks/limits.js';
 import type { RigSpec } from './model/rig-types.js';
-import { buildRigModel, predictAtThrottle, predictCurve, rigGeometry, type RigModel } from './model/index.js';
+import { predictAtThrottle, predictCurve, rigGeometry, type RigModel } from './model/index.js';
+import { BAND_K, bandEdges, bandModel, CALIBRATED_CURRENT_ZERO_A, UNCALIBRATED_ZEROS, type BandSource } from './model/band.js';
+import { ModelFitKeeper, type ModelFitView } from './bench/model-fit.js';
+import type { Calibration } from './bench/calibration.js';
 import { SequenceService, loadExamples } from './bench/sequence-service.js';
 import { CalibrationService, type CalibrationServiceDeps } from './bench/calibration-service.js';
 import { sessionsApi } from './http/sessions-api.js';
@@ -105,9 +108,20 @@ export interface LivePrediction {
   grams_per_watt: number[];
   ideal_open_gpw: number[];
   ideal_ducted_gpw: (number | null)[];
+  /** The prediction's uncertainty band (BAND_K standard uncertainties), gram-force per watt, per throttle. */
+  band_lo_gpw: number[];
+  band_hi_gpw: number[];
+  band_k: number;
+  band_source: BandSource;
+  /** The calibration on an open sweep the prediction uses, or null (then the band is the stated spread). */
+  fit: ModelFitView | null;
 }
 
-function livePrediction(model: RigModel, ceiling: number, atmosphere: Atmosphere): LivePrediction {
+/** The model of the mount and its band: the fitted one when the propeller and motor were calibrated on an open sweep. */
+type Banded = ReturnType<typeof bandModel>;
+
+function livePrediction(banded: Banded, ceiling: number, atmosphere: Atmosphere, fit: ModelFitView | null): LivePrediction {
+  const model = banded.model;
   const throttles = Array.from({ length: 30 }, (_, i) => Math.round(((i + 1) / 30) * ceiling * 1000) / 1000);
   const curve = predictCurve(model, { throttles });
   const geo = rigGeometry(model.rig);
@@ -122,7 +136,16 @@ function livePrediction(model: RigModel, ceiling: number, atmosphere: Atmosphere
     grams_per_watt: curve.points.map((p) => p.gramsPerWatt),
     ideal_open_gpw: curve.points.map((p) => p.idealGramsPerWattOpen),
     ideal_ducted_gpw: curve.points.map((p) => p.idealGramsPerWattDucted),
+    ...bandArrays(banded, throttles),
+    band_k: BAND_K,
+    band_source: banded.source,
+    fit,
   };
+}
+
+function bandArrays(banded: Banded, throttles: readonly number[]): { band_lo_gpw: number[]; band_hi_gpw: number[] } {
+  const e = throttles.map((t) => bandEdges(banded.at(t)));
+  return { band_lo_gpw: e.map((x) => x.lo), band_hi_gpw: e.map((x) => x.hi) };
 }
 
 export interface RunningDaemon {
@@ -211,24 +234,34 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
   controller.maxSlewPerS = limits.max_slew_per_s;
   controller.maxThrottle = limits.max_throttle;
   const atmosphere = resolveAtmosphere(opts.atmosphere);
-  const modelFor = (r: RigSpec | null): RigModel | null => {
+  // Calibrations of the model on open sweeps (per propeller and motor), and the banded model of the mount.
+  const fits = new ModelFitKeeper();
+  // A current zero in the calibration in force narrows the measured side's share of the band (set below).
+  let measuredZeros = UNCALIBRATED_ZEROS;
+  const zerosOf = (c: Calibration) => (c.current.offset !== 0 ? { ...UNCALIBRATED_ZEROS, current_A: CALIBRATED_CURRENT_ZERO_A } : UNCALIBRATED_ZEROS);
+  const bandedFor = (r: RigSpec | null): Banded | null => {
+    if (!r) return null;
     try {
-      return r ? buildRigModel(r, { air: atmosphere.air }) : null;
+      const fit = fits.forRig(r);
+      return bandModel(r, { ...(fit?.modelOptions ?? {}), air: atmosphere.air }, fit, measuredZeros);
     } catch (err) {
-      log(`ductbench: no prediction for rig ${r?.name}: ${(err as Error).message}`);
+      log(`ductbench: no prediction for rig ${r.name}: ${(err as Error).message}`);
       return null;
     }
   };
-  let model: RigModel | null = modelFor(rig);
-  // What the interlocks judge by for the mount in force.
+  let banded = bandedFor(rig);
+  let model: RigModel | null = banded?.model ?? null;
+  // What the interlocks judge by for the mount in force: the band of the prediction in force (it narrows once
+  // calibrated on an open sweep).
   const interlockMount = () => ({
     limits,
     diameterM: rig?.propeller.diameter_m ?? null,
     cells: rig?.supply.cells ?? null,
-    predictor: model
+    predictor: banded
       ? (throttle: number, voltage: number) => {
-          const p = predictAtThrottle(model!, throttle, voltage);
-          return { gramsPerWatt: p.gramsPerWatt, thrust_N: p.thrust_N };
+          const p = predictAtThrottle(banded!.model, throttle, voltage);
+          const b = banded!.at(throttle, voltage);
+          return { gramsPerWatt: p.gramsPerWatt, thrust_N: p.thrust_N, bandPct: BAND_K * b.rel_model * 100, zeros: b.zeros };
         }
       : null,
     // a fifth of the thrust the rig is predicted to make at full throttle
@@ -255,6 +288,9 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
       calibrationHistory = new CalibrationHistory(opts.dataDir);
       pipeline.calibration = calibrationHistory.current();
       calibrationWarningsText = calibrationWarnings(calibrationHistory, new Date(), null);
+      measuredZeros = zerosOf(pipeline.calibration);
+      banded = bandedFor(rig);
+      model = banded?.model ?? null;
     } catch (err) {
       // A broken history must not start the bench on a calibration nobody chose: say so, run uncalibrated.
       calibrationWarningsText = [`calibration history unreadable, running uncalibrated: ${(err as Error).message}`];
@@ -278,14 +314,15 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     : null;
   interlocks.on('trip', ({ rule, finding, sample }) => sessions?.addTrip(rule, finding.value, finding.limit, finding.detail, sample));
   // The same prediction `ductbench run` gives its runner, at the bench's own air.
-  const predictFor = (m: RigModel | null): PredictFn | null =>
-    m
+  const predictFor = (b: Banded | null): PredictFn | null =>
+    b
       ? (throttle, voltage) => {
-          const p = predictAtThrottle(m, throttle, voltage);
-          return { thrust_N: p.thrust_N, power_W: p.powerElectrical_W, grams_per_watt: p.gramsPerWatt };
+          const p = predictAtThrottle(b.model, throttle, voltage);
+          const e = bandEdges(b.at(throttle, voltage));
+          return { thrust_N: p.thrust_N, power_W: p.powerElectrical_W, grams_per_watt: p.gramsPerWatt, grams_per_watt_lo: e.lo, grams_per_watt_hi: e.hi };
         }
       : null;
-  let predict = predictFor(model);
+  let predict = predictFor(banded);
   const sequences = new SequenceService({
     controller,
     onSample: (fn) => {
@@ -312,7 +349,29 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
   sequences.on('run', (run) => {
     hub.broadcast({ type: 'run', run });
     if (run.outcome !== null) zero.afterRun();
+    if (run.outcome === 'completed' && rig && rig.duct === null) calibrateModel(run.session);
   });
+  // A completed open sweep calibrates the model for its propeller and motor: the prediction and its band follow.
+  function calibrateModel(session: number | null): void {
+    const points = sequences.view(true)?.points ?? [];
+    try {
+      const f = fits.fitOpenSweep(rig!, points, { air: atmosphere.air }, session);
+      banded = bandedFor(rig);
+      model = banded?.model ?? null;
+      predict = predictFor(banded);
+      if (banded && link.identity) prediction = livePrediction(banded, link.identity.throttleCeiling, atmosphere, fits.view(rig));
+      const pct = (banded && link.identity ? prediction?.band_hi_gpw.map((hi, i) => (hi / prediction!.grams_per_watt[i] - 1) * 100) : []) ?? [];
+      tell({
+        t: Date.now(),
+        level: 'info',
+        kind: 'model',
+        text: `model calibrated on the open sweep${session !== null ? ` of session ${session}` : ''} (${f.points} points; ${Object.entries(f.parameters).map(([k, v]) => `${k} ${v!.toFixed(3)} ± ${f.uncertainties[k as keyof typeof f.uncertainties]!.toFixed(3)}`).join(', ')}): band now ±${pct.length ? Math.min(...pct).toFixed(1) : '?'} to ${pct.length ? Math.max(...pct).toFixed(1) : '?'} %`,
+      });
+      hub.broadcast({ type: 'extras', extras: { prediction } });
+    } catch (err) {
+      tell({ t: Date.now(), level: 'info', kind: 'model', text: `model not calibrated on this sweep: ${(err as Error).message}` });
+    }
+  }
   sequences.on('point', ({ run, point }) => hub.broadcast({ type: 'run_point', run, point }));
   // The pre-arm checklist is confirmed once per daemon session, by a controlling dashboard. The CLI and
   // in-process callers of controller.arm() are not dashboards and have their own acknowledgement.
@@ -366,6 +425,16 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     setCalibration: (c) => {
       pipeline.calibration = c;
       zero.resetOffset('a new calibration is in force (it carries its own offset)');
+      if (zerosOf(c).current_A !== measuredZeros.current_A) {
+        measuredZeros = zerosOf(c);
+        banded = bandedFor(rig);
+        model = banded?.model ?? null;
+        predict = predictFor(banded);
+        if (banded && link.identity) {
+          prediction = livePrediction(banded, link.identity.throttleCeiling, atmosphere, fits.view(rig));
+          hub.broadcast({ type: 'extras', extras: { prediction } });
+        }
+      }
     },
     onSample: (fn) => {
       sampleListeners.add(fn);
@@ -427,8 +496,9 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     limits = st.limits;
     controller.maxSlewPerS = limits.max_slew_per_s;
     controller.maxThrottle = limits.max_throttle;
-    model = modelFor(rig);
-    predict = predictFor(model);
+    banded = bandedFor(rig);
+    model = banded?.model ?? null;
+    predict = predictFor(banded);
     interlocks.remount(interlockMount());
     if (sim && rig) {
       try {
@@ -439,9 +509,9 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
       }
     }
     prediction = null;
-    if (model && link.identity) {
+    if (banded && link.identity) {
       try {
-        prediction = livePrediction(model, link.identity.throttleCeiling, atmosphere);
+        prediction = livePrediction(banded, link.identity.throttleCeiling, atmosphere, fits.view(rig));
       } catch (err) {
         log(`ductbench: prediction failed: ${(err as Error).message}`);
       }
@@ -575,9 +645,9 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
       hub.broadcast({ type: 'event', event });
     }
     interlocks.reset();
-    if (model) {
+    if (banded) {
       try {
-        prediction = livePrediction(model, id.throttleCeiling, atmosphere);
+        prediction = livePrediction(banded, id.throttleCeiling, atmosphere, fits.view(rig));
         hub.broadcast({ type: 'extras', extras: extras() });
       } catch (err) {
         log(`ductbench: prediction failed: ${(err as Error).message}`);

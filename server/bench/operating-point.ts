@@ -29,9 +29,11 @@ export interface OperatingPoint {
   /** Open-rotor figure of merit from thrust and electrical power at the atmosphere in use (a system figure, motor losses included). */
   figure_of_merit: number | null;
   /** Model prediction at this throttle, when a rig is known. */
-  predicted: { thrust_N: number; power_W: number; grams_per_watt: number } | null;
+  predicted: { thrust_N: number; power_W: number; grams_per_watt: number; grams_per_watt_lo?: number; grams_per_watt_hi?: number } | null;
   /** Measured grams per watt against predicted, in %. */
   deviation_pct: number | null;
+  /** Whether the measured grams per watt lies inside the prediction's uncertainty band (absent: no band). */
+  within_band?: boolean | null;
 }
 
 /** Welford accumulator: one pass, numerically stable, no sample array kept. */

@@ -2,6 +2,7 @@
 // a timer runs the tick rules. A trip calls the controller's trip(), which writes the cut before anything
 // else happens; warnings are rate-limited per rule and reported as events.
 
+import { BAND_K } from '../model/band.js';
 import type { BenchState } from '../api/messages.js';
 import type { Sample } from '../bench/telemetry.js';
 import { TypedEmitter } from '../util/emitter.js';
@@ -23,7 +24,12 @@ export interface InterlockOptions {
   /** Air temperature (K) for the speed of sound; 288.15 K (standard sea level) by default. */
   airTemperatureK?: number;
   /** Predicted grams per watt and thrust at a throttle and bus voltage, or null. */
-  predictor?: ((throttle: number, voltage: number) => { gramsPerWatt: number; thrust_N: number } | null) | null;
+  /**
+   * `bandPct`: half-width of the model's own band there, % of the prediction; `zeros`: standard uncertainty of
+   * the current sensor's zero (A) and the thrust zero (N), which the engine weighs against the measured power
+   * and thrust (a wrong prediction of the power must not widen the band).
+   */
+  predictor?: ((throttle: number, voltage: number) => { gramsPerWatt: number; thrust_N: number; bandPct?: number; zeros?: { current_A: number; thrust_N: number } } | null) | null;
   /**
    * The deviation rule judges only where the predicted thrust is at least this (N): near idle, grams per
    * watt is a ratio of two small, offset-prone numbers and an ESC's start dead-band makes it meaningless.
@@ -150,6 +156,10 @@ export class Interlocks extends TypedEmitter<InterlockEvents> {
   private outputChangedAt = 0;
   private lastPredictionAt = -Infinity;
   private predicted: number | null = null;
+  /** Half-width of the prediction's band at the current throttle, % of the prediction (null: none given). */
+  private predictedBandPct: number | null = null;
+  private predictedZeros: { current_A: number; thrust_N: number } | null = null;
+  private lastVoltage: number | null = null;
   private readonly speedOfSound: number;
 
   constructor(
@@ -176,6 +186,7 @@ export class Interlocks extends TypedEmitter<InterlockEvents> {
       thrustDetrendedStd: null,
       gpwMeasured: null,
       gpwPredicted: null,
+      gpwBandPct: null,
       lastFrameAt: null,
       lastThrustAt: null,
       badLinesLastSecond: 0,
@@ -301,6 +312,7 @@ export class Interlocks extends TypedEmitter<InterlockEvents> {
     c.thrustDetrendedStd = this.trend.residualStd(8);
     c.gpwMeasured = this.steadyGpw(now);
     c.gpwPredicted = this.predicted;
+    c.gpwBandPct = this.bandPct();
     c.lastFrameAt = this.lastFrameAt;
     c.lastThrustAt = this.lastThrustAt;
     c.badLinesLastSecond = first && last ? last.total - first.total : 0;
@@ -350,12 +362,26 @@ export class Interlocks extends TypedEmitter<InterlockEvents> {
       this.emaPower = this.emaPower === null ? s.power : this.emaPower + a * (s.power - this.emaPower);
       this.lastEmaT = now;
     }
+    if (s.voltage !== null) this.lastVoltage = s.voltage;
     const p = this.opts.predictor;
     if (p && s.voltage !== null && now - this.lastPredictionAt > 100) {
       this.lastPredictionAt = now;
       const pred = this.output > 0 ? p(this.output, s.voltage) : null;
-      this.predicted = pred && pred.thrust_N >= (this.opts.deviationMinThrustN ?? 0) ? pred.gramsPerWatt : null;
+      const judged = pred && pred.thrust_N >= (this.opts.deviationMinThrustN ?? 0);
+      this.predicted = judged ? pred.gramsPerWatt : null;
+      this.predictedBandPct = judged && pred.bandPct !== undefined && Number.isFinite(pred.bandPct) ? pred.bandPct : null;
+      this.predictedZeros = judged ? (pred.zeros ?? null) : null;
     }
+  }
+
+  /** The band the deviation rule judges by: the model's, and the zeros' weight on the measured power and thrust, % (k = BAND_K). */
+  private bandPct(): number | null {
+    const m = this.predictedBandPct;
+    const z = this.predictedZeros;
+    if (m === null) return null;
+    if (!z || this.emaPower === null || this.emaThrust === null || this.lastVoltage === null || !(this.emaPower > 0) || !(this.emaThrust > 0)) return m;
+    const zeroPct = 100 * BAND_K * Math.hypot((z.current_A * this.lastVoltage) / this.emaPower, z.thrust_N / this.emaThrust);
+    return Math.hypot(m, zeroPct);
   }
 
   /** Measured grams per watt once the output has held for 1.5 s and thrust is meaningful; else null. */

@@ -39,6 +39,8 @@ export interface RuleContext {
   /** Steady measured and predicted grams per watt, when a prediction exists and the bench is steady. */
   gpwMeasured: number | null;
   gpwPredicted: number | null;
+  /** Half-width of the prediction's uncertainty band there, % of the prediction; null when it carries none. */
+  gpwBandPct: number | null;
   /** Time of the last telemetry frame and of the last thrust reading (ms, performance.now() base). */
   lastFrameAt: number | null;
   lastThrustAt: number | null;
@@ -64,6 +66,14 @@ export interface Rule {
 }
 
 const fmt = (x: number, d = 1) => x.toFixed(d);
+
+/**
+ * Spread of the live thrust-per-watt figure itself on a steady point, % at two standard uncertainties: thrust
+ * and power each smoothed over half a second still carry the load cell's vibration noise and the ESC's current
+ * ripple (about 1.5 % one sigma on the virtual bench at mid throttle). Added to the prediction's band in
+ * quadrature, so a calibrated, narrow band does not warn on the measurement's own noise.
+ */
+export const LIVE_GPW_SPREAD_PCT = 3;
 
 /** A simple ceiling on one channel, tripping above it and warning at a fraction of it. */
 function ceiling(name: string, reason: string, channel: 'current' | 'power' | 'thrust' | 'rpm', limit: (l: Limits) => number, unit: string, warnAt = 0.9): Rule {
@@ -153,8 +163,15 @@ export const RULES: readonly Rule[] = [
       if (c.gpwMeasured === null || c.gpwPredicted === null || c.gpwPredicted <= 0 || !c.mayTurn) return null;
       const dev = (100 * (c.gpwMeasured - c.gpwPredicted)) / c.gpwPredicted;
       const mag = Math.abs(dev);
-      if (mag > c.limits.deviation_trip_pct) return { level: 'trip', value: dev, limit: c.limits.deviation_trip_pct, detail: `grams per watt ${fmt(dev)} % from the prediction (trip at ±${c.limits.deviation_trip_pct} %)` };
-      if (mag > c.limits.deviation_warn_pct) return { level: 'warn', value: dev, limit: c.limits.deviation_trip_pct, detail: `grams per watt ${fmt(dev)} % from the prediction` };
+      // Judged against the prediction's own band where it has one (widened by the live figure's own spread,
+      // LIVE_GPW_SPREAD_PCT, in quadrature): outside it warns; beyond the trip limit trips, but never inside
+      // the band (a deviation the prediction itself allows is not a fault). A prediction without a band falls
+      // back to the fixed warning percentage.
+      const band = c.gpwBandPct != null && Number.isFinite(c.gpwBandPct) ? Math.hypot(c.gpwBandPct, LIVE_GPW_SPREAD_PCT) : null;
+      const trip = band !== null ? Math.max(c.limits.deviation_trip_pct, band) : c.limits.deviation_trip_pct;
+      const warn = band ?? c.limits.deviation_warn_pct;
+      if (mag > trip) return { level: 'trip', value: dev, limit: trip, detail: `grams per watt ${fmt(dev)} % from the prediction (trip at ±${fmt(trip)} %)` };
+      if (mag > warn) return { level: 'warn', value: dev, limit: warn, detail: band !== null ? `grams per watt ${fmt(dev)} % from the prediction, outside its band of ±${fmt(warn)} %` : `grams per watt ${fmt(dev)} % from the prediction` };
       return OK;
     },
   },

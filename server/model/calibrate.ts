@@ -109,7 +109,8 @@ export interface CalibrationResult {
   modelOptions: ModelOptions;
 }
 
-function applyParams(base: ModelOptions, names: readonly FitParameter[], p: readonly number[]): ModelOptions {
+/** Model options with the named parameters set to p (the fit's own mapping, for propagating its covariance). */
+export function applyParams(base: ModelOptions, names: readonly FitParameter[], p: readonly number[]): ModelOptions {
   const factors = { ...base.factors };
   const motor = { ...base.motor };
   const esc = { ...base.esc };

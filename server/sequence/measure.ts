@@ -70,12 +70,19 @@ export class WindowMeasurement {
     const gpw = gramsPerWatt(thrust, power);
     let predicted: RunPoint['predicted'] = null;
     let deviation: number | null = null;
+    let within: boolean | null | undefined;
     const voltage = channels.voltage?.mean;
     if (ctx.predict && voltage !== undefined) {
       const p = ctx.predict(step.throttle, voltage);
       if (p && Number.isFinite(p.thrust_N) && Number.isFinite(p.power_W) && Number.isFinite(p.grams_per_watt)) {
         predicted = { thrust_N: p.thrust_N, power_W: p.power_W, grams_per_watt: p.grams_per_watt };
         if (gpw !== null && p.grams_per_watt > 0) deviation = ((gpw - p.grams_per_watt) / p.grams_per_watt) * 100;
+        const { grams_per_watt_lo: lo, grams_per_watt_hi: hi } = p;
+        if (lo !== undefined && hi !== undefined && Number.isFinite(lo) && Number.isFinite(hi)) {
+          predicted.grams_per_watt_lo = lo;
+          predicted.grams_per_watt_hi = hi;
+          within = gpw === null ? null : gpw >= lo && gpw <= hi;
+        }
       }
     }
     return {
@@ -89,6 +96,7 @@ export class WindowMeasurement {
       figure_of_merit: figureOfMerit(thrust, power, ctx.airDensity_kg_m3, ctx.diskArea_m2),
       predicted,
       deviation_pct: deviation,
+      ...(within !== undefined ? { within_band: within } : {}),
       settle_s,
       direction: step.direction,
       label: step.label,

@@ -63,7 +63,10 @@ export interface SequencePlan {
 }
 
 /** Optional model prediction at a throttle and bus voltage (the integrator wires the performance model in). */
-export type PredictFn = (throttle: number, voltage_V: number) => { thrust_N: number; power_W: number; grams_per_watt: number } | null;
+export type PredictFn = (
+  throttle: number,
+  voltage_V: number,
+) => { thrust_N: number; power_W: number; grams_per_watt: number; grams_per_watt_lo?: number; grams_per_watt_hi?: number } | null;
 
 /** An operating point with what the runner knows about how it was taken. */
 export interface RunPoint extends OperatingPoint {
