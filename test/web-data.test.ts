@@ -5,7 +5,7 @@ import { afterEach, beforeEach, describe, expect, it, vi } from 'vitest';
 import fc from 'fast-check';
 import { API_VERSION, emptyBatch, type BenchView, type LinkView, type SampleBatch, type ServerMessage, type Snapshot } from '../server/api/messages.js';
 import { SampleRing } from '../web/src/data/ring.js';
-import { LiveDecimator, bucketWidth, decimateMinMax, efficiencyPoints, linearWindow, thinScatter } from '../web/src/data/decimate.js';
+import { LiveDecimator, MIN_EFFICIENCY_POWER_W, TRANSIENT_MS, bucketWidth, decimateMinMax, efficiencyPoints, linearWindow, thinScatter } from '../web/src/data/decimate.js';
 import { FrameCoalescer } from '../web/src/data/frame.js';
 import { backoffDelay, closeReason, initialConnection, nextConnection, CLOSE_TOKEN_REFUSED } from '../web/src/data/connection.js';
 import { BenchClient, type SocketLike } from '../web/src/data/client.js';
@@ -232,7 +232,7 @@ describe('efficiencyPoints and thinScatter', () => {
       { t: 20, thrust: 2.2 }, // no new power: the 60 W sample is 15 ms old, still fresh
       { t: 600, thrust: 2.4 }, // power now 595 ms old: no point
       { t: 610, power: 0.5 },
-      { t: 620, thrust: 2.5 }, // below the 1 W floor: no point
+      { t: 620, thrust: 2.5 }, // below the power floor: no point
     ]);
     const ring = new SampleRing(10);
     ring.append(b);
@@ -590,8 +590,12 @@ describe('token, units, preferences, prediction hook, keys', () => {
     expect(readPrediction({})).toBeNull();
     expect(readPrediction({ prediction: { thrust_N: [1, 2], grams_per_watt: [5] } })).toBeNull();
     const p = readPrediction({ prediction: { thrust_N: [1, 2], grams_per_watt: [9, 8], ideal_open_gpw: [36, 25], ideal_ducted_gpw: [null, 35] } });
-    expect(p).toEqual({ thrustN: [1, 2], gramsPerWatt: [9, 8], idealOpen: [36, 25], idealDucted: [null, 35] });
+    expect(p).toEqual({ thrustN: [1, 2], gramsPerWatt: [9, 8], idealOpen: [36, 25], idealDucted: [null, 35], bandLo: null, bandHi: null, band: null });
     expect(readPrediction({ prediction: { thrust_N: [1], grams_per_watt: [9] } })?.idealOpen).toEqual([null]);
+    // The band, with an unbounded edge (null in JSON) where nothing is predicted; a band without its source is not drawn.
+    const banded = { thrust_N: [1, 2], grams_per_watt: [9, 8], band_lo_gpw: [0, 7], band_hi_gpw: [null, 9], band_source: { kind: 'fit', text: 'from a fit' } };
+    expect(readPrediction({ prediction: banded })).toMatchObject({ bandLo: [0, 7], bandHi: [null, 9], band: { kind: 'fit', text: 'from a fit' } });
+    expect(readPrediction({ prediction: { ...banded, band_source: { kind: 'guess' } } })).toMatchObject({ bandLo: null, band: null });
   });
 
   it('leaves Space to word fields only', () => {
@@ -601,5 +605,26 @@ describe('token, units, preferences, prediction hook, keys', () => {
     expect(isWordField({ tagName: 'BUTTON', isContentEditable: false } as unknown as EventTarget)).toBe(false);
     expect(isWordField({ tagName: 'DIV', isContentEditable: true } as unknown as EventTarget)).toBe(true);
     expect(isWordField(null)).toBe(false);
+  });
+});
+
+describe('thrust per watt while the throttle ramps', () => {
+  it('marks points within TRANSIENT_MS of an output change as not steady, and leaves out rows below the power floor', () => {
+    // Output steps from 0.3 to 0.5 at t = 1000 ms; thrust and power every 100 ms.
+    const rows: Record<string, number | null>[] = [];
+    for (let t = 0; t <= 3000; t += 100) rows.push({ t, power: t === 2500 ? MIN_EFFICIENCY_POWER_W / 2 : 60, thrust: 3, out: t < 1000 ? 0.3 : 0.5 });
+    const b = batch(rows.map((r) => ({ t: r.t!, power: r.power!, thrust: r.thrust! })));
+    b.out = rows.map((r) => r.out);
+    const ring = new SampleRing(100);
+    ring.append(b);
+    const p = efficiencyPoints(ring.t, ring.ch.thrust, ring.ch.power, ring, 0, ring.length, ring.ch.out);
+    const at = (t: number) => p.steady[rows.filter((r) => r.t! <= t && r.t !== 2500).length - 1];
+    // no change seen yet at the start: steady; the step at 1000 ms: not steady until 1000 + TRANSIENT_MS
+    expect(at(900)).toBe(true);
+    expect(at(1000)).toBe(false);
+    expect(at(1000 + TRANSIENT_MS - 100)).toBe(false);
+    expect(at(1000 + TRANSIENT_MS)).toBe(true);
+    // the row at 2500 ms (power below the floor) made no point
+    expect(p.thrustN.length).toBe(rows.length - 1);
   });
 });

@@ -1,4 +1,4 @@
-import { html } from 'lit';
+import { html, nothing } from 'lit';
 import uPlot from 'uplot';
 import { LiveEfficiency, thinScatter } from '../data/decimate.js';
 import { readPrediction } from '../data/prediction.js';
@@ -10,6 +10,10 @@ const MODEL = '#1c2430';
 const IDEAL_OPEN = '#8a94a3';
 const IDEAL_DUCTED = '#b4531b';
 const RUN_POINTS = '#c2185b';
+/** Points taken while the throttle ramped or the rotor spun up or down: drawn apart, pale. */
+const TRANSIENT = '#b3bcc6';
+/** The prediction's uncertainty band, under everything. */
+const BAND_FILL = 'rgba(28, 36, 48, 0.10)';
 /** Side of a measured dot, CSS pixels; also the thinning cell, so kept dots tile the plot and barely overlap. */
 const DOT_PX = 4;
 
@@ -86,6 +90,11 @@ export function airAndRig(extras: Readonly<Record<string, unknown>> | undefined)
 export class DbEfficiencyChart extends PlotElement {
   private readonly _points = new LiveEfficiency();
   private readonly _dots = new DotLayer(MEASURED, DOT_PX);
+  private readonly _transientDots = new DotLayer(TRANSIENT, DOT_PX);
+  /** Ramp and spin-up/down points: drawn apart (pale) or left out. */
+  private _transients: 'apart' | 'hidden' = 'apart';
+  /** The band in data units as last handed to the plot: thrust, lower and upper edge. */
+  private _band: { x: number[]; lo: (number | null)[]; hi: (number | null)[] } | null = null;
 
   constructor() {
     super(['snapshot', 'samples', 'extras', 'run']);
@@ -130,7 +139,21 @@ export class DbEfficiencyChart extends PlotElement {
       ><span class="muted">${u.eff} against thrust (${u.thrust})${p ? '' : ' · no model overlay'}</span
       >${air ? html`<span class="muted" data-testid="air">${air}</span>` : ''}${p
         ? html`<span class="muted" data-testid="model-lines">model and ideal ${p.idealDucted.some((x) => x !== null) ? 'open and ducted' : 'open'}</span>`
-        : ''}`;
+        : ''}${p?.band
+        ? html`<span class="muted" data-testid="band" data-kind=${p.band.kind}>shaded: model band, ${p.band.text}</span>`
+        : nothing}<button
+        class="png"
+        data-testid="eff-transients"
+        aria-pressed=${this._transients === 'apart' ? 'true' : 'false'}
+        title="Points taken while the throttle ramps or the rotor spins up or down: thrust lags power there"
+        @click=${() => {
+          this._transients = this._transients === 'apart' ? 'hidden' : 'apart';
+          this.requestUpdate();
+          this._rebuild();
+        }}
+      >
+        ${this._transients === 'apart' ? 'ramps: pale' : 'ramps: hidden'}
+      </button>`;
   }
 
   protected override pngDecor() {
@@ -206,8 +229,20 @@ export class DbEfficiencyChart extends PlotElement {
           points: { show: false, size: 11, width: 0 },
           facets: [{ scale: 'x', auto: true }, { scale: 'y', auto: true }],
         } as uPlot.Series,
+        {
+          label: 'ramps, spin-up/down',
+          stroke: TRANSIENT,
+          fill: TRANSIENT,
+          paths: () => null,
+          points: { show: false, size: DOT_PX, width: 0 },
+          facets: [{ scale: 'x', auto: true }, { scale: 'y', auto: true }],
+        } as uPlot.Series,
       ],
-      hooks: { drawSeries: [(plot, i) => i === 1 && this._dots.draw(plot, i)] },
+      hooks: {
+        drawClear: [(plot) => this._drawBand(plot)],
+        // The pale ramp points under the steady ones.
+        drawSeries: [(plot, i) => (i === 1 ? this._dots.draw(plot, i) : i === 6 ? this._transientDots.draw(plot, i) : undefined)],
+      },
       axes: [
         { ...axis, label: `thrust (${u.thrust})`, labelSize: 18 },
         { ...axis, label: u.eff, labelSize: 18, size: 56 },
@@ -220,17 +255,35 @@ export class DbEfficiencyChart extends PlotElement {
     const u = this._units();
     const empty: [number[], number[]] = [[], []];
     let measured: [number[], number[]] = empty;
+    let transient: [number[], number[]] = empty;
     let last: number | null = null;
     if (c) {
       const ring = c.ring;
       const xTo = ring.length ? ring.lastT() : Date.now();
       const windowMs = (this._dash.prefs?.windowS ?? 60) * 1000;
       const pts = this._points.update(ring, ring.ch.thrust, ring.ch.power, ring.ch.out, xTo - windowMs);
+      // Steady points apart from those taken in a ramp or a spin-up/down (thrust lags power there).
+      const n = pts.gramsPerWatt.length;
+      const sx: number[] = [], sy: number[] = [], tx: number[] = [], ty: number[] = [];
+      for (let i = 0; i < n; i++) {
+        if (pts.steady[i]) {
+          sx.push(pts.thrustN[i]);
+          sy.push(pts.gramsPerWatt[i]);
+        } else {
+          tx.push(pts.thrustN[i]);
+          ty.push(pts.gramsPerWatt[i]);
+        }
+      }
       // One point per dot-sized cell: more would be drawn over each other. Thinned in newtons and gf/W, then
       // converted: a positive factor maps the same points to the same cells.
-      const thin = thinScatter(pts.thrustN, pts.gramsPerWatt, width / DOT_PX, this.plotHeight / DOT_PX);
+      const thin = thinScatter(sx, sy, width / DOT_PX, this.plotHeight / DOT_PX);
       measured = [thin.x.map((v) => v * u.xf), thin.y.map((v) => v * u.yf)];
-      const n = pts.gramsPerWatt.length;
+      if (this._transients === 'apart') {
+        const tt = thinScatter(tx, ty, width / DOT_PX, this.plotHeight / DOT_PX);
+        transient = [tt.x.map((v) => v * u.xf), tt.y.map((v) => v * u.yf)];
+      }
+      this.setAttribute('data-steady', String(sx.length));
+      this.setAttribute('data-transient', String(tx.length));
       last = n ? pts.gramsPerWatt[n - 1] * u.yf : null;
     }
     const p = readPrediction(c?.extras);
@@ -239,6 +292,8 @@ export class DbEfficiencyChart extends PlotElement {
     // The operating points of the current (or last) sequence run, one large dot each.
     const runPts = (c?.run?.points ?? []).filter((q) => q.channels.thrust && q.grams_per_watt !== null);
     const run: [number[], number[]] = [runPts.map((q) => q.channels.thrust!.mean * u.xf), runPts.map((q) => (q.grams_per_watt as number) * u.yf)];
+    this._band = p && p.bandLo && p.bandHi ? { x: px, lo: scaleY(p.bandLo), hi: scaleY(p.bandHi) } : null;
+    this.setAttribute('data-band', p?.band?.kind ?? '');
     const data = [
       null,
       measured,
@@ -246,8 +301,38 @@ export class DbEfficiencyChart extends PlotElement {
       p ? [px, scaleY(p.idealOpen)] : empty,
       p ? [px, scaleY(p.idealDucted)] : empty,
       run,
+      transient,
     ];
     return { data: data as unknown as uPlot.AlignedData, points: measured[0].length, last };
+  }
+
+  /** Shades the band between its edges, clipped to the plot; unbounded stretches (no prediction there) are left out. */
+  private _drawBand(u: uPlot): void {
+    const b = this._band;
+    if (!b || b.x.length < 2) return;
+    const ctx = u.ctx;
+    const { left, top, width, height } = u.bbox;
+    ctx.save();
+    ctx.beginPath();
+    ctx.rect(left, top, width, height);
+    ctx.clip();
+    ctx.fillStyle = BAND_FILL;
+    let i = 0;
+    const ok = (k: number) => b.lo[k] !== null && b.hi[k] !== null && Number.isFinite(b.lo[k]!) && Number.isFinite(b.hi[k]!);
+    while (i < b.x.length) {
+      while (i < b.x.length && !ok(i)) i++;
+      let j = i;
+      while (j < b.x.length && ok(j)) j++;
+      if (j - i >= 2) {
+        ctx.beginPath();
+        for (let k = i; k < j; k++) ctx.lineTo(u.valToPos(b.x[k], 'x', true), u.valToPos(b.hi[k]!, 'y', true));
+        for (let k = j - 1; k >= i; k--) ctx.lineTo(u.valToPos(b.x[k], 'x', true), u.valToPos(b.lo[k]!, 'y', true));
+        ctx.closePath();
+        ctx.fill();
+      }
+      i = j;
+    }
+    ctx.restore();
   }
 }
 customElements.define('db-efficiency-chart', DbEfficiencyChart);

@@ -2,7 +2,7 @@ import { LitElement, css, html } from 'lit';
 import type { SampleChannel } from '../../../server/api/messages.js';
 import { DashboardController } from '../data/context.js';
 import { pageScheduler, type DrawJob } from '../data/frame.js';
-import { MIN_EFFICIENCY_POWER_W } from '../data/decimate.js';
+import { MIN_EFFICIENCY_OUTPUT, MIN_EFFICIENCY_POWER_W } from '../data/decimate.js';
 import { GRAM_FORCE_N, efficiencyUnit, thrustDecimals, thrustFactor } from '../data/units.js';
 import { SERIES_COLOURS } from './styles.js';
 
@@ -116,7 +116,11 @@ export class DbReadouts extends LitElement {
       colour: SERIES_COLOURS[ch],
     });
     const power = v('power');
-    const eff = power >= MIN_EFFICIENCY_POWER_W ? (v('thrust') / GRAM_FORCE_N / power) * (unit === 'gf' ? 1 : GRAM_FORCE_N) : NaN;
+    // A dash below the power floor and while the motor is not driven (an idle ESC and a current sensor's zero
+    // over a stopped rotor's thrust offset would read as a figure).
+    const out = v('out');
+    const driven = !(out < MIN_EFFICIENCY_OUTPUT); // no output channel (NaN): judged by power alone
+    const eff = power >= MIN_EFFICIENCY_POWER_W && driven ? (v('thrust') / GRAM_FORCE_N / power) * (unit === 'gf' ? 1 : GRAM_FORCE_N) : NaN;
     const tiles: Tile[] = [
       tile('thrust', 'Thrust', unit, thrustDecimals(unit), thrustFactor(unit)),
       tile('voltage', 'Voltage', 'V', 2),

@@ -219,12 +219,27 @@ export class LiveDecimator {
   }
 }
 
-/** Below this electrical power a thrust-per-watt figure is mostly sensor noise divided by almost nothing. */
-export const MIN_EFFICIENCY_POWER_W = 1;
+/**
+ * Below this electrical power a thrust-per-watt figure is mostly sensor error divided by almost nothing: an
+ * uncalibrated Hall current sensor's zero (0.1 to 0.3 A) on a 4-cell pack alone is 1.5 to 5 W, and an idling
+ * ESC draws about a watt (common practice). The readout shows a dash there, and the cloud leaves such rows out.
+ */
+export const MIN_EFFICIENCY_POWER_W = 5;
+
+/**
+ * After a change of the throttle output, thrust and power are not each other's for this long: the ESC's soft
+ * start and the rotor's inertia carry the speed (and the power) ahead of the thrust, and the load cell lags
+ * behind its force (a 10 samples/s converter by a tenth of a second and more). Points in it are drawn apart.
+ */
+export const TRANSIENT_MS = 800;
+/** An output change smaller than this is a held throttle, not a ramp (the wire carries four decimals). */
+const OUTPUT_STEP = 0.0015;
 
 export interface EfficiencyPoints {
   thrustN: number[];
   gramsPerWatt: number[];
+  /** False for points taken while the throttle ramped or within TRANSIENT_MS after (spin-up, spin-down). */
+  steady: boolean[];
 }
 
 /** Throttle output below which the propeller is taken as idle or spinning down: no efficiency point. */
@@ -250,12 +265,13 @@ export function efficiencyPoints(
   holdMs = 250,
   minPowerW = MIN_EFFICIENCY_POWER_W,
 ): EfficiencyPoints {
-  const res: EfficiencyPoints = { thrustN: [], gramsPerWatt: [] };
+  const res: EfficiencyPoints = { thrustN: [], gramsPerWatt: [], steady: [] };
   const a = Math.max(0, Math.min(i0, win.length));
   const b = Math.max(a, Math.min(i1, win.length));
-  pairRange(newPairState(), t, thrust, power, out, win, a, b, holdMs, minPowerW, (_t, th, gpw) => {
+  pairRange(newPairState(), t, thrust, power, out, win, a, b, holdMs, minPowerW, (_t, th, gpw, steady) => {
     res.thrustN.push(th);
     res.gramsPerWatt.push(gpw);
+    res.steady.push(steady);
   });
   return res;
 }
@@ -267,10 +283,12 @@ interface PairState {
   sumP: number;
   nP: number;
   lastOut: number;
+  /** Host time of the last change of the output (a ramp step), or -Infinity. */
+  outChangedAt: number;
 }
 
 function newPairState(): PairState {
-  return { lastP: NaN, lastPt: -Infinity, sumP: 0, nP: 0, lastOut: NaN };
+  return { lastP: NaN, lastPt: -Infinity, sumP: 0, nP: 0, lastOut: NaN, outChangedAt: -Infinity };
 }
 
 /** Pairs logical rows [a, b) of a ring, carrying the state in s; emit gets (host time, thrust N, gf/W). */
@@ -285,10 +303,10 @@ function pairRange(
   b: number,
   holdMs: number,
   minPowerW: number,
-  emit: (t: number, thrustN: number, gramsPerWatt: number) => void,
+  emit: (t: number, thrustN: number, gramsPerWatt: number, steady: boolean) => void,
 ): void {
   const cap = win.capacity;
-  let { lastP, lastPt, sumP, nP, lastOut } = s;
+  let { lastP, lastPt, sumP, nP, lastOut, outChangedAt } = s;
   let p = win.start + a;
   if (p >= cap) p -= cap;
   for (let i = a; i < b; i++, p = p + 1 === cap ? 0 : p + 1) {
@@ -296,7 +314,10 @@ function pairRange(
     const pw = power[p];
     if (out) {
       const o = out[p];
-      if (o === o) lastOut = o;
+      if (o === o) {
+        if (lastOut === lastOut && Math.abs(o - lastOut) > OUTPUT_STEP) outChangedAt = tv;
+        lastOut = o;
+      }
     }
     if (pw === pw) {
       lastP = pw;
@@ -311,13 +332,14 @@ function pairRange(
     nP = 0;
     if (!(pUsed >= minPowerW)) continue;
     if (lastOut < MIN_EFFICIENCY_OUTPUT) continue; // NaN (no output channel) passes
-    emit(tv, th, th / GRAM_FORCE_N / pUsed);
+    emit(tv, th, th / GRAM_FORCE_N / pUsed, tv - outChangedAt >= TRANSIENT_MS);
   }
   s.lastP = lastP;
   s.lastPt = lastPt;
   s.sumP = sumP;
   s.nP = nP;
   s.lastOut = lastOut;
+  s.outChangedAt = outChangedAt;
 }
 
 /** The thrust-per-watt points of a live window: views into LiveEfficiency's buffers, valid until its next update. */
@@ -326,6 +348,8 @@ export interface LivePoints {
   t: Float64Array;
   thrustN: Float64Array;
   gramsPerWatt: Float64Array;
+  /** 1 for a steady point, 0 for one taken in a ramp or spin-up/down (see TRANSIENT_MS). */
+  steady: Uint8Array;
 }
 
 /**
@@ -340,6 +364,7 @@ export class LiveEfficiency {
   private _t = new Float64Array(1024);
   private _x = new Float64Array(1024);
   private _y = new Float64Array(1024);
+  private _s = new Uint8Array(1024);
   private _head = 0;
   private _tail = 0;
   private _state = newPairState();
@@ -363,7 +388,7 @@ export class LiveEfficiency {
       this._next = base + ring.lowerBound(xFrom);
       this._from = xFrom;
     }
-    pairRange(this._state, ring.t, thrust, power, out, ring, this._next - base, ring.length, this._holdMs, this._minPowerW, (t, th, gpw) => this._push(t, th, gpw));
+    pairRange(this._state, ring.t, thrust, power, out, ring, this._next - base, ring.length, this._holdMs, this._minPowerW, (t, th, gpw, st) => this._push(t, th, gpw, st));
     this._next = base + ring.length;
     this._from = Math.max(this._from, xFrom);
     while (this._head < this._tail && this._t[this._head] < xFrom) this._head++;
@@ -371,14 +396,16 @@ export class LiveEfficiency {
       t: this._t.subarray(this._head, this._tail),
       thrustN: this._x.subarray(this._head, this._tail),
       gramsPerWatt: this._y.subarray(this._head, this._tail),
+      steady: this._s.subarray(this._head, this._tail),
     };
   }
 
-  private _push(t: number, x: number, y: number): void {
+  private _push(t: number, x: number, y: number, steady: boolean): void {
     if (this._tail === this._t.length) this._makeRoom();
     this._t[this._tail] = t;
     this._x[this._tail] = x;
     this._y[this._tail] = y;
+    this._s[this._tail] = steady ? 1 : 0;
     this._tail++;
   }
 
@@ -395,6 +422,12 @@ export class LiveEfficiency {
     this._t = move(this._t);
     this._x = move(this._x);
     this._y = move(this._y);
+    if (cap === this._s.length) this._s.copyWithin(0, this._head, this._tail);
+    else {
+      const b = new Uint8Array(cap);
+      b.set(this._s.subarray(this._head, this._tail));
+      this._s = b;
+    }
     this._head = 0;
     this._tail = live;
   }
