@@ -126,16 +126,19 @@ export function renderSessionReport(s: SessionRecord, samples?: SampleBatch): st
   if (s.points.length === 0) parts.push('<p class="muted">No operating points were recorded.</p>');
   else {
     parts.push(
-      '<table><tr><th>#</th><th>throttle</th><th>thrust (N)</th><th>voltage (V)</th><th>current (A)</th><th>power (W)</th><th>rpm</th><th>g/W</th><th>FM</th><th>predicted g/W</th><th>deviation (%)</th><th>settled</th></tr>',
+      '<table><tr><th>#</th><th>throttle</th><th>thrust (N)</th><th>voltage (V)</th><th>current (A)</th><th>power (W)</th><th>rpm</th><th>g/W</th><th>FM</th><th>predicted g/W</th><th>band g/W</th><th>deviation (%)</th><th>settled</th></tr>',
     );
     for (const p of s.points) {
       const c = p.channels;
       parts.push(
-        `<tr><td>${p.index}</td><td>${num(p.throttle, 3)}</td><td>${pm(c.thrust?.mean, c.thrust?.std, 3)}</td><td>${pm(c.voltage?.mean, c.voltage?.std, 2)}</td><td>${pm(c.current?.mean, c.current?.std, 2)}</td><td>${pm(c.power?.mean, c.power?.std, 1)}</td><td>${pm(c.rpm?.mean, c.rpm?.std, 0)}</td><td>${num(p.grams_per_watt, 2)}</td><td>${num(p.figure_of_merit, 3)}</td><td>${num(p.predicted?.grams_per_watt, 2)}</td><td>${num(p.deviation_pct, 1)}</td><td>${p.settled ? 'yes' : 'no'}</td></tr>`,
+        `<tr><td>${p.index}</td><td>${num(p.throttle, 3)}</td><td>${pm(c.thrust?.mean, c.thrust?.std, 3)}</td><td>${pm(c.voltage?.mean, c.voltage?.std, 2)}</td><td>${pm(c.current?.mean, c.current?.std, 2)}</td><td>${pm(c.power?.mean, c.power?.std, 1)}</td><td>${pm(c.rpm?.mean, c.rpm?.std, 0)}</td><td>${num(p.grams_per_watt, 2)}</td><td>${num(p.figure_of_merit, 3)}</td><td>${num(p.predicted?.grams_per_watt, 2)}</td><td>${p.predicted?.grams_per_watt_lo !== undefined ? `${num(p.predicted.grams_per_watt_lo, 2)} to ${num(p.predicted.grams_per_watt_hi ?? Infinity, 2)}` : '—'}</td><td>${num(p.deviation_pct, 1)}${p.within_band === false ? ' (outside the band)' : ''}</td><td>${p.settled ? 'yes' : 'no'}</td></tr>`,
       );
     }
-    parts.push('</table><p class="muted">Values are mean ± sample standard deviation over each measurement window.</p>');
+    parts.push('</table><p class="muted">Values are mean ± sample standard deviation over each measurement window; the band is the prediction\'s uncertainty at two standard uncertainties.</p>');
   }
+  // The zero the run started from and its drift over the run (server/bench/zero-service.ts).
+  const zeroEvents = s.events.filter((e) => e.kind === 'zero' || e.kind === 'zero_drift');
+  if (zeroEvents.length) parts.push('<h2>Zero</h2><ul>', ...zeroEvents.map((e) => `<li${e.level === 'warn' ? ' class="warn"' : ''}>${esc(e.text)}</li>`), '</ul>');
 
   parts.push('<h2>Rig</h2>', kvTable(s.rig && { ...s.rig, sim: undefined }, 'No rig snapshot was recorded.'));
   parts.push('<h2>Calibration in force</h2>');

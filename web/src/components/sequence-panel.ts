@@ -356,8 +356,8 @@ export class DbSequencePanel extends LitElement {
             <th>g/W</th>
             <th>FM</th>
             <th>predicted g/W</th>
-            <th title="the prediction's uncertainty band (two standard uncertainties)">band g/W</th>
             <th>deviation</th>
+            <th title="the prediction's uncertainty band (two standard uncertainties)">band g/W</th>
           </tr>
         </thead>
         <tbody>
@@ -372,17 +372,17 @@ export class DbSequencePanel extends LitElement {
               <td>${fmt(p.grams_per_watt, 2)}</td>
               <td>${fmt(p.figure_of_merit, 3)}</td>
               <td>${fmt(p.predicted?.grams_per_watt, 2)}</td>
-              <td data-testid="point-band">${p.predicted?.grams_per_watt_lo !== undefined && p.predicted.grams_per_watt_hi !== undefined
-                ? `${fmt(p.predicted.grams_per_watt_lo, 2)}–${Number.isFinite(p.predicted.grams_per_watt_hi) && p.predicted.grams_per_watt_hi !== null ? fmt(p.predicted.grams_per_watt_hi, 2) : '∞'}`
-                : '—'}</td>
               <td
                 data-testid="point-deviation"
                 data-within=${p.within_band === undefined || p.within_band === null ? '' : String(p.within_band)}
                 class=${p.within_band === false ? 'unsettled' : ''}
                 title=${p.within_band === false ? 'outside the prediction\'s band' : p.within_band ? 'inside the prediction\'s band' : ''}
               >
-                ${p.deviation_pct === null ? '—' : `${p.deviation_pct > 0 ? '+' : ''}${fmt(p.deviation_pct, 1)} %`}${p.within_band === false ? ' (outside the band)' : ''}
+                ${p.deviation_pct === null ? '—' : `${p.deviation_pct > 0 ? '+' : ''}${fmt(p.deviation_pct, 1)} %`}
               </td>
+              <td data-testid="point-band">${p.predicted?.grams_per_watt_lo !== undefined && p.predicted.grams_per_watt_hi !== undefined
+                ? `${fmt(p.predicted.grams_per_watt_lo, 2)}–${Number.isFinite(p.predicted.grams_per_watt_hi) && p.predicted.grams_per_watt_hi !== null ? fmt(p.predicted.grams_per_watt_hi, 2) : '∞'}`
+                : '—'}</td>
             </tr>`;
           })}
         </tbody>
