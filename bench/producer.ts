@@ -76,7 +76,15 @@ function onCommand(line: string, arrivedAt: number): void {
   switch (r.tag) {
     case 'HELLO':
       send(
-        encodeLine('IDENT', next(), { proto: 1, fw: 'bench-producer', fwver: '2', caps: ['thrust@1000', 'voltage@1000', 'current@1000', 'rpm@200'], thrmax: 0.9, hb: 300 }) + stat(),
+        encodeLine('IDENT', next(), {
+          proto: 1,
+          fw: 'bench-producer',
+          fwver: '2',
+          caps: ['thrust@1000', 'voltage@1000', 'current@1000', 'rpm@200'],
+          thrmax: 0.9,
+          hb: 300,
+          ...(r.fields.nonce !== undefined ? { nonce: r.fields.nonce } : {}),
+        }) + stat(),
       );
       if (mode === 'paced' || mode === 'trips') setTimeout(start, 200);
       return;

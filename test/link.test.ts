@@ -22,7 +22,7 @@ describe('device link', () => {
     const dev = new ScriptedDevice();
     const link = makeLink(() => dev);
     const id = await link.start();
-    expect(id).toMatchObject({ protocol: 1, firmware: 'scripted', throttleCeiling: 0.8, heartbeatTimeoutMs: 300, channels: { thrust: 80, voltage: 500 } });
+    expect(id).toMatchObject({ protocol: 1, firmware: 'scripted', throttleCeiling: 0.8, heartbeatTimeoutMs: 300, channels: { thrust: 80, voltage: 100 } });
     await new Promise((r) => setTimeout(r, 350));
     const hbs = dev.received.filter((f) => f.tag === 'HB').length;
     expect(hbs).toBeGreaterThanOrEqual(2); // every 100 ms

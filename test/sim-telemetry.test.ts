@@ -39,9 +39,9 @@ describe('telemetry rates', () => {
         expect(n / seconds, ch).toBeLessThan(rate * 1.02);
       }
       // Frames run at the fastest channel's rate, every one carries the output, and slower channels are left out of most.
-      expect(tel.length / seconds).toBeCloseTo(500, -1);
+      expect(tel.length / seconds).toBeCloseTo(100, -1);
       expect(tel.every((t) => t.fields.out === 0.4)).toBe(true);
-      expect(tel.filter((t) => t.fields.temp === undefined).length).toBeGreaterThan(tel.length * 0.9);
+      expect(tel.filter((t) => t.fields.temp === undefined).length).toBeGreaterThanOrEqual(tel.length * 0.85);
     });
   }
 
@@ -52,7 +52,8 @@ describe('telemetry rates', () => {
     host.clear();
     host.run(200);
     const t = host.of('TEL').map((f) => f.fields.t);
-    for (let k = 1; k < t.length; k++) expect(t[k] - t[k - 1]).toBe(2000);
+    // 100 frames a second: the fastest default channels (voltage, current, rpm) sample at 100/s.
+    for (let k = 1; k < t.length; k++) expect(t[k] - t[k - 1]).toBe(10000);
   });
 
   it('sends STAT at least every 200 ms and on every change', () => {
@@ -82,7 +83,7 @@ describe('wrapping counters', () => {
     let wraps = 0;
     for (let k = 1; k < t.length; k++) {
       const d = (t[k] - t[k - 1] + 4294967296) % 4294967296;
-      expect(d).toBe(2000);
+      expect(d).toBe(10000);
       if (t[k] < t[k - 1]) wraps++;
     }
     expect(wraps).toBe(1);

@@ -38,6 +38,9 @@ function ok(direction, body, tag, seq, fields, note, opts = {}) {
 // host to device
 ok('h2d', 'HELLO 0 proto=1 host=ductbench', 'HELLO', 0, { proto: 1, host: 'ductbench' }, 'handshake with optional host name');
 ok('h2d', 'HELLO 0 proto=1', 'HELLO', 0, { proto: 1 }, 'handshake, optional host absent');
+ok('h2d', 'HELLO 0 proto=1 host=ductbench nonce=40961', 'HELLO', 0, { proto: 1, host: 'ductbench', nonce: 40961 }, 'handshake with the nonce the answer must copy');
+ok('h2d', 'HELLO 1 proto=1 nonce=0', 'HELLO', 1, { proto: 1, nonce: 0 }, 'nonce at its minimum');
+ok('h2d', 'BYE 2', 'BYE', 2, {}, 'the host ends its session');
 ok('h2d', 'HB 1', 'HB', 1, {}, 'heartbeat, no fields');
 ok('h2d', 'HB 65535', 'HB', 65535, {}, 'largest sequence number');
 ok('h2d', 'STATUS 2', 'STATUS', 2, {}, 'status request');
@@ -49,6 +52,9 @@ ok('h2d', 'THR 7 v=1.0000', 'THR', 7, { v: 1 }, 'throttle at its maximum');
 ok('h2d', 'THR 8 v=0.25', 'THR', 8, { v: 0.25 }, 'fewer decimals than declared', { canonical: false });
 ok('h2d', 'THR 9 v=.5', 'THR', 9, { v: 0.5 }, 'no digit before the decimal point', { canonical: false });
 ok('h2d', 'THR 10 v=1e-1', 'THR', 10, { v: 0.1 }, 'decimal exponent', { canonical: false });
+ok('h2d', 'THR 10 v=1.', 'THR', 10, { v: 1 }, 'a decimal point with no digit after it', { canonical: false });
+ok('h2d', 'THR 10 v=0', 'THR', 10, { v: 0 }, 'an integer for a decimal field', { canonical: false });
+ok('h2d', 'THR 10 v=5E-1', 'THR', 10, { v: 0.5 }, 'capital E in the exponent', { canonical: false });
 ok('h2d', 'THR 11 v=0.3500', 'THR', 11, { v: 0.35 }, 'lowercase checksum is accepted', { lower: true, canonical: false });
 ok('h2d', 'STOP 12', 'STOP', 12, {}, 'emergency stop, optional why absent');
 ok('h2d', 'STOP 13 why=host_trip', 'STOP', 13, { why: 'host_trip' }, 'stop naming the host trip');
@@ -67,6 +73,11 @@ ok('d2h', 'IDENT 0 proto=1 fw=ductbench-fw fwver=1.0.0 caps=thrust@80,voltage@10
 ok('d2h', 'IDENT 0 proto=1 fw=ductbench-fw fwver=1.1.0-rc.2 caps=thrust@80,voltage@1000,current@1000,rpm@200,temp@10,torque@80 thrmax=0.650 hb=250 escrate=400', 'IDENT', 0,
   { proto: 1, fw: 'ductbench-fw', fwver: '1.1.0-rc.2', caps: ['thrust@80', 'voltage@1000', 'current@1000', 'rpm@200', 'temp@10', 'torque@80'], thrmax: 0.65, hb: 250, escrate: 400 },
   'identity with every channel and escrate');
+ok('d2h', 'IDENT 0 proto=1 fw=ductbench-fw fwver=1.0.0 caps=thrust@80,voltage@100,current@100 thrmax=0.800 hb=300 escrate=400 boot=reset', 'IDENT', 0,
+  { proto: 1, fw: 'ductbench-fw', fwver: '1.0.0', caps: ['thrust@80', 'voltage@100', 'current@100'], thrmax: 0.8, hb: 300, escrate: 400, boot: 'reset' }, 'the IDENT sent at boot: boot=, no nonce');
+ok('d2h', 'IDENT 2 proto=1 fw=ductbench-fw fwver=1.0.0 caps=thrust@80 thrmax=0.800 hb=100 nonce=40961', 'IDENT', 2,
+  { proto: 1, fw: 'ductbench-fw', fwver: '1.0.0', caps: ['thrust@80'], thrmax: 0.8, hb: 100, nonce: 40961 }, 'an answer to HELLO nonce=40961');
+ok('d2h', 'TEL 3 t=1000 thrust=1e+3', 'TEL', 3, { t: 1000, thrust: 1000 }, 'exponent with a plus sign is allowed (not a leading plus)', { canonical: false });
 ok('d2h', 'STAT 1 armed=0 out=0.000 fault=reset hbok=0', 'STAT', 1, { armed: false, out: 0, fault: 'reset', hbok: false }, 'status after boot: reset latched');
 ok('d2h', 'STAT 2 armed=1 out=0.350 fault=none hbok=1', 'STAT', 2, { armed: true, out: 0.35, fault: 'none', hbok: true }, 'status while running');
 ok('d2h', 'TEL 3 t=123456', 'TEL', 3, { t: 123456 }, 'telemetry with only the timestamp');
@@ -138,6 +149,14 @@ badSigned('h2d', 'THR 1 v=Infinity', 'bad_field', 'Infinity');
 badSigned('h2d', 'THR 1 v=1e400', 'bad_field', 'overflows to infinity');
 badSigned('h2d', 'THR 1 v=0x10', 'bad_field', 'hex-looking number');
 badSigned('h2d', 'THR 1 v=+0.5', 'bad_field', 'explicit plus sign');
+badSigned('h2d', 'TARE 1 n=1e+2', 'bad_field', 'an exponent in an unsigned integer');
+badSigned('h2d', 'TARE 1 n=16.', 'bad_field', 'a decimal point in an unsigned integer');
+badSigned('h2d', 'THR 1 v=1..', 'bad_field', 'two decimal points');
+badSigned('h2d', 'THR 1 v=.', 'bad_field', 'a decimal point alone');
+badSigned('h2d', 'THR 1 v=1e', 'bad_field', 'an exponent without digits');
+badSigned('h2d', 'HELLO 0 proto=1 nonce=65536', 'bad_field', 'nonce above 65535');
+badSigned('d2h', 'IDENT 0 proto=1 fw=x fwver=1 caps=thrust@80 thrmax=0.800 hb=300 boot=cold', 'bad_field', 'boot cause not declared');
+badSigned('h2d', 'BYE 1 now=1', 'unknown_field', 'BYE has no fields');
 badSigned('h2d', 'THR 1 v=0,5', 'bad_field', 'decimal comma');
 badSigned('h2d', 'THR 1 v=', 'bad_field', 'empty value');
 badSigned('h2d', 'TARE 1 n=0', 'bad_field', 'unsigned integer below its minimum');

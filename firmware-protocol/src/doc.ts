@@ -18,6 +18,7 @@ import {
   type MessageTag,
   type RefusalCode,
 } from './messages.js';
+import { HOST_RULES, lineBudget } from './host-rules.js';
 
 export const GENERATED_BEGIN = '<!-- BEGIN GENERATED: tables -->';
 export const GENERATED_END = '<!-- END GENERATED: tables -->';
@@ -37,7 +38,7 @@ export const FAULT_MEANINGS: Readonly<Record<FaultCode, string>> = {
 
 export const REFUSAL_MEANINGS: Readonly<Record<RefusalCode, string>> = {
   not_ready: 'No successful handshake (HELLO with a matching protocol) yet.',
-  latched: 'A fault is latched; only HELLO, HB, STATUS, STOP, CLEAR and DISARM are carried out.',
+  latched: 'A fault is latched; only HELLO, HB, STATUS, STOP, CLEAR, DISARM and BYE are carried out.',
   not_armed: 'A throttle above zero was asked for while disarmed.',
   throttle_not_zero: 'ARM was asked for while the commanded throttle is above zero.',
   above_ceiling: 'The throttle asked for is above the hard ceiling (IDENT thrmax): refused, never clamped.',
@@ -136,6 +137,33 @@ export function renderConstantsTable(): string {
   return table(['constant', 'value', 'meaning'], PROTOCOL_CONSTANTS.map(([n, v, m]) => ['`' + n + '`', String(v), m]));
 }
 
+export function renderHostRulesTable(): string {
+  return table(['rule', 'value', 'what the host does'], HOST_RULES.map(([n, v, m]) => ['`' + n + '`', String(v), m]));
+}
+
+/** Worked examples of the byte budget, computed by the same function the host and the checker use. */
+export const BUDGET_EXAMPLES: ReadonlyArray<readonly [caps: string, baud: number]> = [
+  ['thrust@80,voltage@100,current@100,rpm@10,temp@2', 115200],
+  ['thrust@80,voltage@100,current@100,rpm@100,temp@10', 115200],
+  ['thrust@80,voltage@1000,current@1000,rpm@200', 115200],
+  ['thrust@80,voltage@1000,current@1000,rpm@200', 1000000],
+];
+
+export function renderBudgetTable(): string {
+  return table(
+    ['caps', 'baud', 'worst case, bytes/s', 'line carries, bytes/s', 'verdict'],
+    BUDGET_EXAMPLES.map(([caps, baud]) => {
+      const rates: Record<string, number> = {};
+      for (const item of caps.split(',')) {
+        const [n, r] = item.split('@');
+        rates[n] = Number(r);
+      }
+      const b = lineBudget(rates, baud);
+      return ['`' + caps + '`', String(baud), String(b.bytesPerSecond), String(b.capacityPerSecond), `${Math.round(b.utilisation * 100)} %: ${b.fits ? 'fits' : 'does not fit (the host warns)'}`];
+    }),
+  );
+}
+
 /** Everything between the markers of PROTOCOL.md (markers excluded), ending in a newline. */
 export function renderGeneratedTables(): string {
   const tags = Object.keys(MESSAGES) as MessageTag[];
@@ -148,6 +176,18 @@ export function renderGeneratedTables(): string {
     '### Constants',
     '',
     renderConstantsTable(),
+    '',
+    '### Host rules',
+    '',
+    'Every figure the host enforces, from `firmware-protocol/src/host-rules.ts`, which the host itself reads.',
+    '',
+    renderHostRulesTable(),
+    '',
+    '### Byte budget examples',
+    '',
+    'Worst case of the declared rates (every field at its widest, STAT every `STAT_MAX_INTERVAL_MS`) against the line at 10 bits a byte:',
+    '',
+    renderBudgetTable(),
     '',
     '### Messages',
     '',

@@ -54,7 +54,7 @@ export const FAULT_CODES = [
   'heartbeat', // host heartbeat lost
   'host_trip', // the host cut the throttle because one of its limits tripped
   'brownout', // supply voltage fell below the firmware's floor
-  'reset', // the controller restarted (watchdog or power); reported once after boot
+  'reset', // the controller restarted other than by power-on; latched at boot
   'sensor', // a required sensor stopped answering
   'overcurrent', // the firmware's own hard current limit
 ] as const;
@@ -63,7 +63,7 @@ export type FaultCode = (typeof FAULT_CODES)[number];
 /** Reasons the device gives when it refuses a command. */
 export const REFUSAL_CODES = [
   'not_ready', // no handshake yet
-  'latched', // a fault is latched; only HELLO, HB, STATUS, STOP, CLEAR and DISARM are accepted
+  'latched', // a fault is latched; only HELLO, HB, STATUS, STOP, CLEAR, DISARM and BYE are accepted
   'not_armed', // throttle asked for while disarmed
   'throttle_not_zero', // arm asked for while the throttle is above zero
   'above_ceiling', // throttle above the hard ceiling: refused, never clamped
@@ -72,6 +72,10 @@ export const REFUSAL_CODES = [
   'busy', // a calibration or tare is still running
 ] as const;
 export type RefusalCode = (typeof REFUSAL_CODES)[number];
+
+/** Why the device booted, carried only by the IDENT it sends at boot (IDENT boot=). */
+export const BOOT_CAUSES = ['power', 'reset'] as const;
+export type BootCause = (typeof BOOT_CAUSES)[number];
 
 export const CHANNELS = ['thrust', 'voltage', 'current', 'rpm', 'temp', 'torque'] as const;
 export type Channel = (typeof CHANNELS)[number];
@@ -90,7 +94,7 @@ export const MESSAGES = {
   // ---------------------------------------------------------------- device to host
   IDENT: {
     dir: 'd2h',
-    doc: 'Identity, sent in answer to HELLO (and once after boot). The host refuses a device whose protocol differs.',
+    doc: 'Identity, sent in answer to HELLO (echoing its nonce) and once at boot (with boot=). The host refuses a device whose protocol differs.',
     safety: false,
     acked: false,
     fields: [
@@ -101,6 +105,8 @@ export const MESSAGES = {
       { key: 'thrmax', kind: 'num', unit: 'fraction', required: true, decimals: 3, min: 0, max: 1, doc: 'Hard throttle ceiling the firmware enforces (0 to 1).' },
       { key: 'hb', kind: 'uint', unit: 'ms', required: true, min: 20, max: 5000, doc: 'Heartbeat loss time-out the firmware applies.' },
       { key: 'escrate', kind: 'uint', unit: 'Hz', required: false, min: 1, max: 2000, doc: 'ESC pulse rate.' },
+      { key: 'nonce', kind: 'uint', unit: null, required: false, min: 0, max: 65535, doc: 'The nonce of the HELLO this IDENT answers, copied unchanged; absent when that HELLO carried none, and in the IDENT sent at boot.' },
+      { key: 'boot', kind: 'enum', unit: null, required: false, values: BOOT_CAUSES, doc: 'Only in the IDENT sent at boot, never in an answer: power after a power-on, reset after any other restart.' },
     ],
   },
   TEL: {
@@ -164,6 +170,7 @@ export const MESSAGES = {
     fields: [
       { key: 'proto', kind: 'uint', unit: null, required: true, min: 0, max: 999, doc: 'Protocol version the host speaks.' },
       { key: 'host', kind: 'token', unit: null, required: false, doc: 'Host software name.' },
+      { key: 'nonce', kind: 'uint', unit: null, required: false, min: 0, max: 65535, doc: 'Chosen afresh by the host for every HELLO; the IDENT that answers copies it. Optional so that a HELLO can be typed by hand.' },
     ],
   },
   HB: {
@@ -189,7 +196,7 @@ export const MESSAGES = {
   },
   DISARM: {
     dir: 'h2d',
-    doc: 'Set the stop output and disarm. Always carried out.',
+    doc: 'Set the stop output and disarm. Carried out in every state, before the handshake and while latched too.',
     safety: true,
     acked: true,
     fields: [],
@@ -203,12 +210,19 @@ export const MESSAGES = {
   },
   STOP: {
     dir: 'h2d',
-    doc: 'Emergency stop: handled ahead of anything queued; stop output, disarm, latch estop (or the given fault).',
+    doc: 'Emergency stop: handled ahead of anything queued, in every state (before the handshake too); stop output, disarm, latch estop (or the given fault) unless a fault is latched already.',
     safety: true,
     acked: true,
     fields: [
       { key: 'why', kind: 'enum', unit: null, required: false, values: ['estop', 'host_trip'], doc: 'Fault to latch; estop when left out.' },
     ],
+  },
+  BYE: {
+    dir: 'h2d',
+    doc: 'The host ends its session cleanly: stop output, disarm, forget the handshake and stop watching the heartbeat. Latches nothing and clears nothing.',
+    safety: true,
+    acked: true,
+    fields: [],
   },
   CLEAR: {
     dir: 'h2d',

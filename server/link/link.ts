@@ -8,9 +8,19 @@ import { decodeLine, encodeLine, nextSeq, seqGap, type DecodeErrorReason } from 
 import { LineSplitter } from '../../firmware-protocol/src/lines.js';
 import { fastDecode } from '../../firmware-protocol/src/fast-decode.js';
 import {
-  DEFAULT_HEARTBEAT_TIMEOUT_MS,
+  ACK_TIMEOUT_MS,
+  DEFAULT_BAUD,
+  HANDSHAKE_TIMEOUT_MS,
+  HELLO_RETRY_MS,
+  heartbeatIntervalFor,
+  heartbeatTimeoutProblem,
+  lineBudget,
+  type LineBudget,
+} from '../../firmware-protocol/src/host-rules.js';
+import {
   HEARTBEAT_INTERVAL_MS,
   PROTOCOL_VERSION,
+  type BootCause,
   type DeviceFrame,
   type FieldsOf,
   type FrameOf,
@@ -42,13 +52,30 @@ export class CommandRefused extends Error {
   }
 }
 
-/** A command that got no answer in time, or whose link went away first. */
+/**
+ * A command that got no answer in time (`noAck`: it was written and may or may not have been carried out), or
+ * that never reached the device (the link went away first, the queue was full, an emergency stop dropped it).
+ */
 export class CommandTimeout extends Error {
-  constructor(readonly tag: HostCommandTag, reason: string) {
+  constructor(
+    readonly tag: HostCommandTag,
+    reason: string,
+    readonly noAck = false,
+  ) {
     super(`${tag}: ${reason}`);
     this.name = 'CommandTimeout';
   }
 }
+
+/** The link's defaults: the figures of firmware-protocol/src/host-rules.ts, which PROTOCOL.md tabulates. */
+export const LINK_DEFAULTS = Object.freeze({
+  handshakeTimeoutMs: HANDSHAKE_TIMEOUT_MS,
+  helloRetryMs: HELLO_RETRY_MS,
+  ackTimeoutMs: ACK_TIMEOUT_MS,
+  reconnectInitialMs: 250,
+  reconnectMaxMs: 5000,
+  writeQueueCap: 64,
+});
 
 export interface LinkOptions {
   /** Makes a fresh transport for every (re)connection attempt. */
@@ -62,7 +89,8 @@ export interface LinkOptions {
   /** Lines waiting to be written; beyond this new non-urgent lines are refused and counted. */
   writeQueueCap?: number;
   ackTimeoutMs?: number;
-  heartbeatIntervalMs?: number;
+  /** A fixed heartbeat period; by default it follows the device's announced time-out (heartbeatIntervalFor). */
+  heartbeatIntervalMs?: number | null;
   /** Stop retrying after a handshake failure of these kinds (the wrong device will not become the right one). */
   fatalKinds?: readonly LinkErrorKind[];
   /** Reconnect after losing the device (default true). */
@@ -79,6 +107,8 @@ export interface LinkEvents {
   ready: DeviceIdentity;
   /** A line was written to the transport (after encoding); used by tests and the cut-latency benchmark. */
   written: { tag: HostCommandTag; seq: number; line: string };
+  /** Something about the device worth telling the operator that does not stop the link (e.g. a byte budget). */
+  warning: string;
 }
 
 interface Pending {
@@ -134,8 +164,18 @@ export class DeviceLink extends TypedEmitter<LinkEvents> {
   private wanted = false;
   /** Lines seen during the handshake that did not decode: tells "wrong device" from "silent device". */
   private handshakeJunk = 0;
-  /** Set while the HELLO sent after a device reboot waits for its IDENT. */
+  /** Set while the HELLO sent after a device reboot waits for its IDENT; its retry timer. */
   private rehandshake = false;
+  private rehelloTimer: NodeJS.Timeout | null = null;
+  /** Nonces of the HELLOs sent on this connection: an IDENT answers one of them or is not an answer. */
+  private readonly nonces = new Set<number>();
+  private nonceNext = Math.floor(Math.random() * 65536);
+  /** IDENTs during the handshake that answered no HELLO of ours (no nonce, or a foreign one). */
+  private unmatchedIdents = 0;
+  /** The boot the device announced during this connection's handshake (an auto-reset on open), or null. */
+  private bootValue: BootCause | null = null;
+  private budgetValue: LineBudget | null = null;
+  private heartbeatMs: number = HEARTBEAT_INTERVAL_MS;
   /** Bumped on every (re)connection so callbacks from an old transport are ignored. */
   private generation = 0;
   private counters = { linesOk: 0, linesBad: {} as Record<string, number>, seqGaps: 0, writeDropped: 0, reconnects: 0 };
@@ -143,13 +183,8 @@ export class DeviceLink extends TypedEmitter<LinkEvents> {
   constructor(options: LinkOptions) {
     super();
     this.opts = {
-      handshakeTimeoutMs: 3000,
-      helloRetryMs: 400,
-      reconnectInitialMs: 250,
-      reconnectMaxMs: 5000,
-      writeQueueCap: 64,
-      ackTimeoutMs: 1000,
-      heartbeatIntervalMs: HEARTBEAT_INTERVAL_MS,
+      ...LINK_DEFAULTS,
+      heartbeatIntervalMs: null,
       fatalKinds: [],
       reconnect: true,
       ...options,
@@ -180,6 +215,37 @@ export class DeviceLink extends TypedEmitter<LinkEvents> {
 
   get isReady(): boolean {
     return this.statusValue === 'ready';
+  }
+
+  /**
+   * How the device said it booted while this connection was handshaking (a board that resets when its port is
+   * opened), or null when it answered without booting. A reset latch with this set is the one the opening caused.
+   */
+  get bootOnConnect(): BootCause | null {
+    return this.bootValue;
+  }
+
+  /** The worst-case byte rate of the declared channels against this line's baud rate; null before a handshake. */
+  get lineBudget(): LineBudget | null {
+    return this.budgetValue;
+  }
+
+  /** The heartbeat period in use (it follows the device's announced time-out). */
+  get heartbeatIntervalMs(): number {
+    return this.heartbeatMs;
+  }
+
+  /**
+   * Ends the session cleanly: BYE, so the device disarms and stops watching the heartbeat rather than latching
+   * heartbeat loss once the port closes. Resolves either way (false when there was no device or no answer).
+   */
+  async bye(timeoutMs = 500): Promise<boolean> {
+    if (!this.isReady) return false;
+    const answered = this.command('BYE', {}).then(
+      () => true,
+      () => false,
+    );
+    return Promise.race([answered, new Promise<boolean>((r) => setTimeout(() => r(false), timeoutMs).unref())]);
   }
 
   view(): LinkView {
@@ -250,7 +316,7 @@ export class DeviceLink extends TypedEmitter<LinkEvents> {
     const p = new Promise<void>((resolve, reject) => {
       const timer = setTimeout(() => {
         this.pending.delete(seq);
-        reject(new CommandTimeout(tag, `no answer within ${this.opts.ackTimeoutMs} ms`));
+        reject(new CommandTimeout(tag, `no acknowledgement within ${this.opts.ackTimeoutMs} ms`, true));
       }, this.opts.ackTimeoutMs);
       this.pending.set(seq, { tag, resolve, reject, timer });
     });
@@ -280,7 +346,7 @@ export class DeviceLink extends TypedEmitter<LinkEvents> {
     const acked = new Promise<void>((resolve, reject) => {
       const timer = setTimeout(() => {
         this.pending.delete(seq);
-        reject(new CommandTimeout('STOP', `no answer within ${this.opts.ackTimeoutMs} ms`));
+        reject(new CommandTimeout('STOP', `no acknowledgement within ${this.opts.ackTimeoutMs} ms`, true));
       }, this.opts.ackTimeoutMs);
       this.pending.set(seq, { tag: 'STOP', resolve, reject, timer });
     });
@@ -349,19 +415,40 @@ export class DeviceLink extends TypedEmitter<LinkEvents> {
     this.splitter.reset();
     this.rxSeq = null;
     this.handshakeJunk = 0;
+    this.unmatchedIdents = 0;
     this.rehandshake = false;
+    this.nonces.clear();
+    this.bootValue = null;
+    this.budgetValue = null;
     this.setStatus('handshaking');
-    const hello = () => this.send('HELLO', { proto: PROTOCOL_VERSION, host: 'ductbench' });
-    hello();
-    this.helloTimer = setInterval(hello, this.opts.helloRetryMs);
+    this.hello();
+    this.helloTimer = setInterval(() => this.hello(), this.opts.helloRetryMs);
     this.handshakeTimer = setTimeout(() => {
       if (gen !== this.generation) return;
       const err =
-        this.handshakeJunk > 0
-          ? new LinkError('not_a_ductbench_device', `${transport.description} sends data but not ductbench protocol v${PROTOCOL_VERSION} (${this.handshakeJunk} unreadable lines)`)
-          : new LinkError('handshake_timeout', `${transport.description} did not answer the handshake within ${this.opts.handshakeTimeoutMs} ms`);
+        this.unmatchedIdents > 0
+          ? new LinkError(
+              'protocol_mismatch',
+              `${transport.description} answers HELLO with an IDENT that does not copy its nonce (${this.unmatchedIdents} such IDENTs; PROTOCOL.md, Handshake)`,
+            )
+          : this.handshakeJunk > 0
+            ? new LinkError('not_a_ductbench_device', `${transport.description} sends data but not ductbench protocol v${PROTOCOL_VERSION} (${this.handshakeJunk} unreadable lines)`)
+            : new LinkError(
+                'handshake_timeout',
+                `${transport.description} did not answer the handshake within ${this.opts.handshakeTimeoutMs} ms${this.bootValue ? ` (it booted, boot=${this.bootValue}, but answered no HELLO)` : ''}`,
+              );
       this.fail(err);
     }, this.opts.handshakeTimeoutMs);
+  }
+
+  /** Sends HELLO with a fresh nonce; the answer must copy it. */
+  private hello(): void {
+    const nonce = this.nonceNext;
+    this.nonceNext = (this.nonceNext + 1) % 65536;
+    // Only this connection's recent HELLOs count; a bounded set, since a slow bootloader sees many retries.
+    if (this.nonces.size >= 256) this.nonces.delete(this.nonces.values().next().value as number);
+    this.nonces.add(nonce);
+    this.send('HELLO', { proto: PROTOCOL_VERSION, host: 'ductbench', nonce });
   }
 
   private onLine(line: string): void {
@@ -388,42 +475,95 @@ export class DeviceLink extends TypedEmitter<LinkEvents> {
     this.emit('frame', frame);
   }
 
+  /**
+   * The handshake rule (PROTOCOL.md, Handshake): an IDENT whose nonce is one of this connection's HELLOs is an
+   * answer; an IDENT with boot= is a restart, whatever came before it; anything else answers nobody. So a
+   * boot IDENT after an auto-reset is never taken for an answer, and a second answer (to a repeated HELLO)
+   * is never taken for a restart.
+   */
   private onIdent(frame: FrameOf<'IDENT'>): void {
     const id = identityFromFrame(frame);
     if (id.protocol !== PROTOCOL_VERSION) {
       this.fail(new LinkError('protocol_mismatch', `device speaks protocol v${id.protocol}, ductbench speaks v${PROTOCOL_VERSION}; update the firmware or ductbench`));
       return;
     }
-    if (id.heartbeatTimeoutMs > DEFAULT_HEARTBEAT_TIMEOUT_MS) {
-      // A device that would keep a motor turning for longer than this after the host dies is not safe to drive.
-      this.fail(new LinkError('protocol_mismatch', `device announces a heartbeat time-out of ${id.heartbeatTimeoutMs} ms; ductbench requires at most ${DEFAULT_HEARTBEAT_TIMEOUT_MS} ms`));
-      return;
-    }
-    const wasReady = this.statusValue === 'ready';
-    this.identityValue = id;
-    this.emit('identity', id);
-    if (wasReady) {
-      if (this.rehandshake) {
-        // The answer to our own HELLO after a reboot: not another reboot.
-        this.rehandshake = false;
+    const nonce = frame.fields.nonce;
+    const answer = nonce !== undefined && this.nonces.has(nonce);
+    const boot = frame.fields.boot ?? null;
+    if (this.statusValue !== 'ready') {
+      if (boot !== null) {
+        // The board has just booted (often because opening the port pulsed its reset line): whatever HELLO
+        // it missed while its bootloader ran, greet it now rather than at the next retry.
+        this.bootValue = boot;
+        this.hello();
         return;
       }
-      // An IDENT while ready means the controller rebooted (watchdog, brown-out): it is disarmed now, and it
-      // has forgotten the handshake, so it would refuse even CLEAR. Handshake again on the same connection.
-      this.emit('frame', frame);
-      this.rehandshake = true;
-      this.send('HELLO', { proto: PROTOCOL_VERSION, host: 'ductbench' });
+      if (!answer) {
+        this.unmatchedIdents++;
+        return;
+      }
+      const problem = heartbeatTimeoutProblem(id.heartbeatTimeoutMs);
+      if (problem) {
+        // A device that would keep a motor turning for longer than this after the host dies is not safe to drive.
+        this.fail(new LinkError('protocol_mismatch', problem));
+        return;
+      }
+      this.identityValue = id;
+      this.emit('identity', id);
+      if (this.helloTimer) clearInterval(this.helloTimer);
+      if (this.handshakeTimer) clearTimeout(this.handshakeTimer);
+      this.helloTimer = this.handshakeTimer = null;
+      this.backoffMs = this.opts.reconnectInitialMs;
+      this.lastError = null;
+      this.budgetValue = lineBudget(id.channels, this.transport?.baudRate ?? DEFAULT_BAUD);
+      this.setStatus('ready');
+      this.heartbeatMs = this.opts.heartbeatIntervalMs ?? heartbeatIntervalFor(id.heartbeatTimeoutMs);
+      this.heartbeatTimer = setInterval(() => this.send('HB', {}), this.heartbeatMs);
+      this.send('HB', {});
+      this.emit('ready', id);
+      const b = this.budgetValue;
+      if (!b.fits) {
+        this.emit(
+          'warning',
+          `the declared rates (${frame.fields.caps.join(',')}) need up to ${b.bytesPerSecond} bytes/s, but ${this.transport?.baudRate ?? DEFAULT_BAUD} baud carries ${b.capacityPerSecond} (${Math.round(b.utilisation * 100)} %): telemetry will lag or be dropped (PROTOCOL.md, Telemetry)`,
+        );
+      }
       return;
     }
-    if (this.helloTimer) clearInterval(this.helloTimer);
-    if (this.handshakeTimer) clearTimeout(this.handshakeTimer);
-    this.helloTimer = this.handshakeTimer = null;
-    this.backoffMs = this.opts.reconnectInitialMs;
-    this.lastError = null;
-    this.setStatus('ready');
-    this.heartbeatTimer = setInterval(() => this.send('HB', {}), this.opts.heartbeatIntervalMs);
-    this.send('HB', {});
-    this.emit('ready', id);
+    if (answer) {
+      // An answer to one of our HELLOs: to the one after a restart (the handshake is whole again), or a late
+      // answer to a repeated HELLO of the first handshake. Neither is a restart.
+      this.identityValue = id;
+      this.emit('identity', id);
+      if (this.rehandshake) this.endRehandshake();
+      return;
+    }
+    // Anything else while ready is a restart (boot=, or a device that does not follow the nonce rule at all):
+    // the controller is disarmed now and has forgotten the handshake, so it would refuse even CLEAR. Handshake
+    // again on the same connection, repeating HELLO until it answers.
+    this.identityValue = id;
+    this.emit('identity', id);
+    this.emit('frame', frame);
+    this.rehandshake = true;
+    this.hello();
+    if (this.rehelloTimer) clearInterval(this.rehelloTimer);
+    const started = Date.now();
+    const gen = this.generation;
+    this.rehelloTimer = setInterval(() => {
+      if (gen !== this.generation || !this.rehandshake) return this.endRehandshake();
+      if (Date.now() - started > this.opts.handshakeTimeoutMs) {
+        this.endRehandshake();
+        this.fail(new LinkError('handshake_timeout', `the device restarted and did not answer the handshake again within ${this.opts.handshakeTimeoutMs} ms`));
+        return;
+      }
+      this.hello();
+    }, this.opts.helloRetryMs);
+  }
+
+  private endRehandshake(): void {
+    this.rehandshake = false;
+    if (this.rehelloTimer) clearInterval(this.rehelloTimer);
+    this.rehelloTimer = null;
   }
 
   private settle(frame: FrameOf<'ACK'> | FrameOf<'NAK'>): void {
@@ -478,7 +618,9 @@ export class DeviceLink extends TypedEmitter<LinkEvents> {
     this.transport = null;
     this.writing = false;
     this.queue.length = 0;
-    for (const timer of [this.heartbeatTimer, this.helloTimer]) if (timer) clearInterval(timer);
+    for (const timer of [this.heartbeatTimer, this.helloTimer, this.rehelloTimer]) if (timer) clearInterval(timer);
+    this.rehelloTimer = null;
+    this.rehandshake = false;
     if (this.handshakeTimer) clearTimeout(this.handshakeTimer);
     this.heartbeatTimer = this.helloTimer = this.handshakeTimer = null;
     for (const [seq, p] of this.pending) {

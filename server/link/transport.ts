@@ -10,6 +10,8 @@ export interface TransportHandlers {
 export interface Transport {
   /** For people: "virtual bench (in process)" or "/dev/ttyACM0 @ 115200". */
   readonly description: string;
+  /** The line's baud rate, when it has one (a serial port); the byte budget of the declared rates is judged against it. */
+  readonly baudRate?: number;
   /** Opens the transport; rejects with an Error whose message says why (missing port, permission ...). */
   open(handlers: TransportHandlers): Promise<void>;
   /**

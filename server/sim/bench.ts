@@ -9,7 +9,7 @@ import type { FaultCode } from '../../firmware-protocol/src/messages.js';
 import type { RigSpec } from '../model/rig-types.js';
 import { DEFAULT_OPEN_RIG } from './default-rigs.js';
 import type { FaultOptions, InjectedFault, InjectedFaultKind } from './faults.js';
-import { Firmware, type FirmwareEvent, type FirmwareStats, type FwMode, type FwTransition } from './firmware.js';
+import { Firmware, type FirmwareBugs, type FirmwareEvent, type FirmwareStats, type FwMode, type FwTransition } from './firmware.js';
 import { Prng } from './prng.js';
 import { SensorBank } from './sensors.js';
 import { parseSimConstants, type SimConstants } from './sim-constants.js';
@@ -212,7 +212,8 @@ export class VirtualBench {
     let last = performance.now();
     this.timer = setInterval(() => {
       const now = performance.now();
-      const dt = Math.min(MAX_REALTIME_CATCHUP_MS, now - last);
+      // With a short heartbeat time-out the cap shrinks with it: a stall is then lost time, not host silence.
+      const dt = Math.min(MAX_REALTIME_CATCHUP_MS, this.sim.heartbeat_timeout_ms / 4, now - last);
       last = now;
       try {
         this.advance(dt);
@@ -287,6 +288,11 @@ export class VirtualBench {
   /** Truth propeller coefficients at an rpm (for tests and for judging a predictor). */
   coefficients(rpm: number): { ct: number; cp: number; cpInduced: number; cpProfile: number } {
     return this.truthModel.coefficients(rpm);
+  }
+
+  /** The firmware's bug switches (all off on a good board): the checker's tests make broken boards with them. */
+  get firmwareBugs(): FirmwareBugs {
+    return this.fw.bugs;
   }
 
   get transitions(): readonly FwTransition[] {

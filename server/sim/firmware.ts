@@ -7,7 +7,7 @@
 // STOP and HB take effect right there, ahead of anything queued, while every other command waits in a short
 // queue for the main loop (`tick`). The ESC output is owned here and nowhere else.
 
-import { decodeLine, encodeLine, nextSeq, seqGap, type DecodeErrorReason } from '../../firmware-protocol/src/codec.js';
+import { decodeLine, encodeLine, nextSeq, seqGap, withChecksum, type DecodeErrorReason } from '../../firmware-protocol/src/codec.js';
 import { LineSplitter } from '../../firmware-protocol/src/lines.js';
 import {
   MESSAGES,
@@ -75,11 +75,46 @@ export interface FirmwareStats {
   linesOut: number;
 }
 
-/** Behaviour changes used by fault injection to stand in for buggy firmware. */
+/**
+ * Behaviour changes that stand in for buggy firmware: fault injection uses one, and the device checker's tests
+ * run a "broken board" per flag to show the checker catches each. All false on a good board.
+ */
 export interface FirmwareBugs {
   /** Heartbeat loss is not tracked at all: hbok stays 1 and the output keeps running. */
   ignoreHeartbeat: boolean;
+  /** IDENT answers HELLO without copying its nonce (PROTOCOL.md, Handshake). */
+  noNonceEcho: boolean;
+  /** ARM and THR are carried out before any handshake (Handshake: not_ready). */
+  noHandshakeNeeded: boolean;
+  /** A THR above the ceiling is clamped to it and acknowledged instead of refused (Safety: hard ceiling). */
+  clampAboveCeiling: boolean;
+  /** A THR above the ceiling while disarmed is refused as not_armed, not above_ceiling (Refusals and their order). */
+  notArmedFirst: boolean;
+  /** A new fault replaces the latched one (Safety: fault latch). */
+  latchReplaced: boolean;
+  /** STOP disarms but latches nothing (Safety: STOP first). */
+  stopNoLatch: boolean;
+  /** The heartbeat time-out applied is three times the one announced (Heartbeat). */
+  lateHeartbeatCut: boolean;
+  /** STAT only every second when nothing changes (Telemetry: STAT at least every 200 ms). */
+  slowStat: boolean;
+  /** Numbers sent without their declared decimals, e.g. out=0.3 (Framing: senders write the declared decimals). */
+  shortNumbers: boolean;
 }
+
+export const NO_BUGS: Readonly<FirmwareBugs> = Object.freeze({
+  ignoreHeartbeat: false,
+  noNonceEcho: false,
+  noHandshakeNeeded: false,
+  clampAboveCeiling: false,
+  notArmedFirst: false,
+  latchReplaced: false,
+  stopNoLatch: false,
+  lateHeartbeatCut: false,
+  slowStat: false,
+  shortNumbers: false,
+});
+export type FirmwareBug = keyof FirmwareBugs;
 
 const TEL_KEY: Record<Channel, 'thrust' | 'v' | 'i' | 'rpm' | 'temp' | 'torque'> = {
   thrust: 'thrust',
@@ -90,8 +125,8 @@ const TEL_KEY: Record<Channel, 'thrust' | 'v' | 'i' | 'rpm' | 'temp' | 'torque'>
   torque: 'torque',
 };
 
-/** Commands still accepted while a fault is latched (HELLO, HB and STATUS are never refused for it). */
-const ALLOWED_WHILE_LATCHED = new Set<string>(['STOP', 'CLEAR', 'DISARM']);
+/** Acknowledged commands carried out in every state: before the handshake and while latched. */
+const ALWAYS_CARRIED_OUT = new Set<string>(['STOP', 'DISARM', 'BYE']);
 
 const DEFAULT_TARE_SAMPLES = 16;
 const U32 = 4294967296;
@@ -128,7 +163,7 @@ export class Firmware {
 
   readonly stats: FirmwareStats = { linesIn: 0, badLines: 0, badByReason: {}, hostSeqGaps: 0, linesOut: 0 };
   readonly transitions: FwTransition[] = [];
-  readonly bugs: FirmwareBugs = { ignoreHeartbeat: false };
+  readonly bugs: FirmwareBugs = { ...NO_BUGS };
   onEvent: ((e: FirmwareEvent) => void) | null = null;
 
   constructor(
@@ -233,7 +268,7 @@ export class Firmware {
         this.nextFrameUs = this.nowUs + this.framePeriodUs;
         // A restart mid-run is latched: a host that did not see it must not carry on as if nothing happened.
         this.enter(input.fault === 'none' ? 'disarmed' : 'latched', input.fault === 'none' ? 'power-on boot' : 'controller restarted');
-        this.sendIdent();
+        this.sendIdent({ boot: input.fault === 'none' ? 'power' : 'reset' });
         this.sendStat();
         if (input.fault !== 'none') this.event({ kind: 'fault', fault: input.fault });
         return;
@@ -259,17 +294,16 @@ export class Firmware {
   private command(f: HostFrame): void {
     switch (f.tag) {
       case 'HELLO': {
-        this.sendIdent();
-        if (f.fields.proto === PROTOCOL_VERSION) {
-          // A new handshake is a new host session: whatever the old one had running stops.
-          if (this._mode === 'armed') {
-            this.cut();
-            this.enter('disarmed', 'new handshake while armed');
-          }
-          this._handshaken = true;
-          this.lastHbUs = this.nowUs;
-          this._hbOk = true;
+        this.sendIdent(f.fields.nonce !== undefined && !this.bugs.noNonceEcho ? { nonce: f.fields.nonce } : {});
+        // A new handshake is a new host session: whatever the old one had running stops.
+        if (this._mode === 'armed') {
+          this.cut();
+          this.enter('disarmed', f.fields.proto === PROTOCOL_VERSION ? 'new handshake while armed' : 'handshake with another protocol version');
         }
+        // A host speaking another version gets IDENT (so it can say what is wrong) and not_ready after it.
+        this._handshaken = f.fields.proto === PROTOCOL_VERSION;
+        this.lastHbUs = this.nowUs;
+        this._hbOk = this._handshaken;
         this.sendStat();
         return;
       }
@@ -285,9 +319,11 @@ export class Firmware {
       default:
         break;
     }
-    // Everything below is acknowledged.
-    if (!this._handshaken) return this.nak(f, 'not_ready');
-    if (this._mode === 'latched' && !ALLOWED_WHILE_LATCHED.has(f.tag)) return this.nak(f, 'latched');
+    // Everything below is acknowledged. Refusals in the order PROTOCOL.md gives: not_ready, then latched, then
+    // the command's own (for THR above_ceiling before not_armed).
+    const always = ALWAYS_CARRIED_OUT.has(f.tag);
+    if (!always && !this._handshaken && !this.bugs.noHandshakeNeeded) return this.nak(f, 'not_ready');
+    if (!always && f.tag !== 'CLEAR' && this._mode === 'latched') return this.nak(f, 'latched');
     switch (f.tag) {
       case 'ARM':
         if (this._commanded !== 0) return this.nak(f, 'throttle_not_zero');
@@ -299,8 +335,12 @@ export class Firmware {
         if (this._mode === 'armed') this.enter('disarmed', 'disarmed by host');
         return this.ack(f);
       case 'THR': {
-        const v = f.fields.v;
-        if (v > this.cfg.ceiling) return this.nak(f, 'above_ceiling');
+        let v = f.fields.v;
+        if (this.bugs.notArmedFirst && this._mode !== 'armed' && v !== 0) return this.nak(f, 'not_armed');
+        if (v > this.cfg.ceiling) {
+          if (!this.bugs.clampAboveCeiling) return this.nak(f, 'above_ceiling');
+          v = this.cfg.ceiling;
+        }
         if (this._mode !== 'armed') {
           if (v !== 0) return this.nak(f, 'not_armed');
           this._commanded = 0;
@@ -312,6 +352,14 @@ export class Firmware {
       }
       case 'STOP':
         this.stop(f.fields.why ?? 'estop');
+        return this.ack(f);
+      case 'BYE':
+        // The host leaves: nothing may keep running, and nobody is left to send heartbeats, so stop watching
+        // them (a latch of heartbeat loss after a clean exit would tell the next host nothing true).
+        this.cut();
+        if (this._mode === 'armed') this.enter('disarmed', 'host ended its session');
+        this._handshaken = false;
+        this._hbOk = false;
         return this.ack(f);
       case 'CLEAR':
         if (this._mode === 'latched') {
@@ -338,6 +386,10 @@ export class Firmware {
 
   private stop(why: 'estop' | 'host_trip'): void {
     this.cut();
+    if (this.bugs.stopNoLatch) {
+      if (this._mode === 'armed') this.enter('disarmed', 'emergency stop (not latched)');
+      return;
+    }
     this.latch(why, why === 'estop' ? 'emergency stop' : 'host limit tripped');
   }
 
@@ -349,7 +401,7 @@ export class Firmware {
 
   /** Latches `fault` unless one is already latched: the first cause is the one worth reporting. */
   private latch(fault: FaultCode, reason: string): void {
-    if (this._fault === 'none') {
+    if (this._fault === 'none' || this.bugs.latchReplaced) {
       this._fault = fault;
       this.event({ kind: 'fault', fault });
     }
@@ -436,7 +488,8 @@ export class Firmware {
   }
 
   private watchdogs(): void {
-    if (this._handshaken && this._hbOk && !this.bugs.ignoreHeartbeat && this.nowUs - this.lastHbUs > this.cfg.heartbeatTimeoutMs * 1000) {
+    const timeoutUs = this.cfg.heartbeatTimeoutMs * 1000 * (this.bugs.lateHeartbeatCut ? 3 : 1);
+    if (this._handshaken && this._hbOk && !this.bugs.ignoreHeartbeat && this.nowUs - this.lastHbUs > timeoutUs) {
       this.apply({ kind: 'heartbeat_lost' });
     }
     if (this.hasThrust && this.cfg.sensorTimeoutMs > 0 && this._mode !== 'latched' && this.nowUs - this.lastThrustUs > this.cfg.sensorTimeoutMs * 1000) {
@@ -447,7 +500,12 @@ export class Firmware {
   // ------------------------------------------------------------------ transmit path
 
   private send<M extends DeviceMessageTag>(tag: M, fields: FieldsOf<M>): void {
-    const line = encodeLine(tag, this.txSeq, fields);
+    let line = encodeLine(tag, this.txSeq, fields);
+    if (this.bugs.shortNumbers && (tag === 'TEL' || tag === 'STAT')) {
+      // Trailing zeros of every decimal dropped ("0.300" -> "0.3", "0.000" -> "0"), then signed again.
+      const body = line.slice(0, line.lastIndexOf('*')).replace(/=(-?\d+)\.(\d*?)0+(?=[ ]|$)/g, (_m, i: string, d: string) => `=${i}${d ? '.' + d : ''}`);
+      line = withChecksum(body) + '\n';
+    }
     this.txSeq = nextSeq(this.txSeq);
     this.stats.linesOut++;
     this.emit(line);
@@ -467,7 +525,7 @@ export class Firmware {
     this.send('LOG', { level, msg: msg.replace(/[^\x20-\x29\x2b-\x7e]/g, '?') });
   }
 
-  private sendIdent(): void {
+  private sendIdent(extra: { nonce?: number; boot?: 'power' | 'reset' }): void {
     this.send('IDENT', {
       proto: PROTOCOL_VERSION,
       fw: this.cfg.name,
@@ -476,6 +534,7 @@ export class Firmware {
       thrmax: this.cfg.ceiling,
       hb: this.cfg.heartbeatTimeoutMs,
       escrate: this.cfg.escRateHz,
+      ...extra,
     });
   }
 
@@ -485,7 +544,7 @@ export class Firmware {
 
   private sendStat(): void {
     this.lastStatSig = this.statSig();
-    this.nextStatUs = this.nowUs + this.cfg.statPeriodMs * 1000;
+    this.nextStatUs = this.nowUs + (this.bugs.slowStat ? 1000 : this.cfg.statPeriodMs) * 1000;
     this.send('STAT', { armed: this.armed, out: this._output, fault: this._fault, hbok: this._hbOk });
   }
 

@@ -9,6 +9,7 @@ export { DEFAULT_OPEN_RIG, DEFAULT_DUCTED_RIG } from './default-rigs.js';
 export { loadSimRig, validateSimRig, SimRigError } from './rig-file.js';
 export { SIM_DEFAULTS, parseSimConstants, SimConfigError, type SimConstants } from './sim-constants.js';
 export { FAULT_KINDS, type InjectedFaultKind, type FaultOptions, type InjectedFault } from './faults.js';
-export type { FwMode, FwTransition, FirmwareEvent, FirmwareStats } from './firmware.js';
+export type { FwMode, FwTransition, FirmwareEvent, FirmwareStats, FirmwareBugs, FirmwareBug } from './firmware.js';
+export { NO_BUGS } from './firmware.js';
 export { ductFactors, lipoCellOcv, type TruthState, type DuctFactors } from './truth.js';
 export { Prng } from './prng.js';

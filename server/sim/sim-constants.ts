@@ -113,8 +113,9 @@ export interface SimConstants {
 
 export const SIM_DEFAULTS: Readonly<SimConstants> = Object.freeze({
   thrust_rate_hz: 80,
-  voltage_rate_hz: 500,
-  current_rate_hz: 500,
+  // 100 samples/s, as the reference firmware: the telemetry of these rates fits 115200 baud (PROTOCOL.md, byte budget).
+  voltage_rate_hz: 100,
+  current_rate_hz: 100,
   rpm_rate_hz: 100,
   temp_rate_hz: 10,
   torque_rate_hz: 0,

@@ -6,7 +6,7 @@ import { LineSplitter } from '../../firmware-protocol/src/lines.js';
 import type { HostFrame } from '../../firmware-protocol/src/messages.js';
 import type { Transport, TransportHandlers } from '../../server/link/transport.js';
 
-export type Behaviour = 'normal' | 'silent' | 'junk' | 'proto2' | 'refuse-open' | 'slow-heartbeat';
+export type Behaviour = 'normal' | 'silent' | 'junk' | 'proto2' | 'refuse-open' | 'slow-heartbeat' | 'no-nonce';
 
 /** A fake microcontroller: answers HELLO, ACKs (or NAKs) commands; records what the host wrote. */
 export class ScriptedDevice implements Transport {
@@ -66,10 +66,19 @@ export class ScriptedDevice implements Transport {
       return;
     }
     if (f.tag === 'HELLO') {
-      this.reply('IDENT', { proto: this.behaviour === 'proto2' ? 2 : 1, fw: 'scripted', fwver: '0.0.1', caps: ['thrust@80', 'voltage@500'], thrmax: 0.8, hb: this.behaviour === 'slow-heartbeat' ? 1000 : 300 });
+      const nonce = f.fields.nonce;
+      this.reply('IDENT', {
+        proto: this.behaviour === 'proto2' ? 2 : 1,
+        fw: 'scripted',
+        fwver: '0.0.1',
+        caps: ['thrust@80', 'voltage@100'],
+        thrmax: 0.8,
+        hb: this.behaviour === 'slow-heartbeat' ? 1000 : 300,
+        ...(nonce !== undefined && this.behaviour !== 'no-nonce' ? { nonce } : {}),
+      });
     } else if (f.tag === 'ARM' && this.nakArm) {
       this.reply('NAK', { ref: f.seq, why: 'throttle_not_zero' });
-    } else if (['ARM', 'DISARM', 'THR', 'STOP', 'CLEAR', 'TARE'].includes(f.tag)) {
+    } else if (['ARM', 'DISARM', 'THR', 'STOP', 'CLEAR', 'TARE', 'BYE'].includes(f.tag)) {
       this.reply('ACK', { ref: f.seq });
     }
   }

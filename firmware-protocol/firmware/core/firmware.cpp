@@ -137,7 +137,7 @@ void Firmware::apply(const Input& in) {
         debug(FW_STR("boot: restart, latched reset"));
       }
       escService();
-      sendIdent();
+      sendIdent(-1, in.fault == FAULT_NONE ? E_IDENT_BOOT_POWER : E_IDENT_BOOT_RESET);
       sendStat();
       return;
     }
@@ -171,7 +171,8 @@ void Firmware::apply(const Input& in) {
 void Firmware::command(const Frame& f) {
   switch (f.msg) {
     case MSG_HELLO:
-      sendIdent();
+      // The answer copies the HELLO's nonce, so the host can tell it from the IDENT of a boot or an older HELLO.
+      sendIdent(f.has(F_HELLO_NONCE) ? (int32_t)f.v[F_HELLO_NONCE].u : -1, -1);
       if (f.v[F_HELLO_PROTO].u == PROTOCOL_VERSION) {
         // A new handshake is a new host session: whatever the old one had running stops.
         if (mode_ == MODE_ARMED) {
@@ -204,9 +205,11 @@ void Firmware::command(const Frame& f) {
     default:
       break;
   }
-  // Everything below is acknowledged.
-  if (!handshaken_) return nak(f, WHY_NOT_READY);
-  if (mode_ == MODE_LATCHED && f.msg != MSG_STOP && f.msg != MSG_CLEAR && f.msg != MSG_DISARM) return nak(f, WHY_LATCHED);
+  // Everything below is acknowledged. Refusals in the order PROTOCOL.md gives: not_ready, then latched, then
+  // the command's own. STOP, DISARM and BYE are carried out in every state.
+  bool always = f.msg == MSG_STOP || f.msg == MSG_DISARM || f.msg == MSG_BYE;
+  if (!always && !handshaken_) return nak(f, WHY_NOT_READY);
+  if (!always && f.msg != MSG_CLEAR && mode_ == MODE_LATCHED) return nak(f, WHY_LATCHED);
   switch (f.msg) {
     case MSG_ARM:
       if (commanded_ != 0.0) return nak(f, WHY_THROTTLE_NOT_ZERO);
@@ -237,6 +240,14 @@ void Firmware::command(const Frame& f) {
       latch(hostTrip ? FAULT_HOST_TRIP : FAULT_ESTOP, hostTrip ? FW_STR("host limit tripped") : FW_STR("emergency stop"));
       return ack(f);
     }
+    case MSG_BYE:
+      // The host leaves: nothing may keep running, and nobody is left to send heartbeats, so stop watching them
+      // (a heartbeat latch after a clean exit would tell the next host nothing true).
+      cut();
+      if (mode_ == MODE_ARMED) enter(MODE_DISARMED, FW_STR("host ended its session"));
+      handshaken_ = false;
+      hbOk_ = false;
+      return ack(f);
     case MSG_CLEAR:
       if (mode_ == MODE_LATCHED) {
         fault_ = FAULT_NONE;
@@ -528,7 +539,7 @@ void Firmware::log(uint8_t level, const char* ramText) {
   send(out_);
 }
 
-void Firmware::sendIdent() {
+void Firmware::sendIdent(int32_t nonce, int8_t boot) {
   out_.clear(MSG_IDENT, 0);
   out_.setUint(F_IDENT_PROTO, PROTOCOL_VERSION);
   out_.setSpan(F_IDENT_FW, cfg_.name, strlen(cfg_.name));
@@ -537,6 +548,8 @@ void Firmware::sendIdent() {
   out_.setNum(F_IDENT_THRMAX, cfg_.ceiling);
   out_.setUint(F_IDENT_HB, cfg_.heartbeatTimeoutMs);
   out_.setUint(F_IDENT_ESCRATE, cfg_.escRateHz);
+  if (nonce >= 0) out_.setUint(F_IDENT_NONCE, (uint32_t)nonce);
+  if (boot >= 0) out_.setEnum(F_IDENT_BOOT, (uint8_t)boot);
   send(out_);
 }
 

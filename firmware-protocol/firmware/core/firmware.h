@@ -96,7 +96,8 @@ class Firmware {
   void ack(const Frame& cmd);
   void nak(const Frame& cmd, uint8_t why);
   void log(uint8_t level, const char* flashText);
-  void sendIdent();
+  /** IDENT; nonce (0..65535) copied from the HELLO it answers, or -1; boot E_IDENT_BOOT_* at boot only, or -1. */
+  void sendIdent(int32_t nonce, int8_t boot);
   void sendStat();
   void statIfChanged();
   void sendTel();

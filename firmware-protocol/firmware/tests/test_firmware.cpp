@@ -80,20 +80,61 @@ TEST_CASE("configuration limits: heartbeat at most 300 ms, ESC 50..490 Hz, ceili
   CHECK(db::validateConfig(db::defaultConfig()) == nullptr);
 }
 
-TEST_CASE("before the handshake: acknowledged commands get not_ready, HB is ignored, STATUS is answered") {
+TEST_CASE("before the handshake: ARM gets not_ready, STOP and DISARM are carried out, HB is ignored, STATUS is answered") {
   Rig r;
   uint16_t arm = r.send("ARM");
-  uint16_t stop = r.send("STOP");
+  uint16_t disarm = r.send("DISARM");
   r.send("HB");
   size_t m = r.mark();
   r.send("STATUS");
   r.poll();
   CHECK_EQ(r.why(arm), std::string("not_ready"));
-  CHECK_EQ(r.why(stop), std::string("not_ready"));
+  CHECK_EQ(r.why(disarm), std::string("ack"));
   CHECK(!r.fw->hbOk());
   CHECK_EQ(r.all("STAT", m).size(), (size_t)1);
+  CHECK_EQ(r.all("STAT", m)[0]["hbok"], std::string("0"));
   r.run(1000, false);  // no heartbeat watchdog before a handshake
   CHECK_EQ(r.fw->fault(), (uint8_t)db::FAULT_NONE);
+  uint16_t stop = r.send("STOP");
+  r.poll();
+  CHECK_EQ(r.why(stop), std::string("ack"));
+  CHECK_EQ(r.fw->fault(), (uint8_t)db::FAULT_ESTOP);
+}
+
+TEST_CASE("IDENT copies the HELLO's nonce; the IDENT sent at boot carries boot= and no nonce") {
+  Rig r;
+  CHECK(r.lines[0].is("IDENT"));
+  CHECK_EQ(r.lines[0]["boot"], std::string("power"));
+  CHECK(!r.lines[0].has("nonce"));
+  size_t m = r.mark();
+  r.send("HELLO proto=1 nonce=40961");
+  r.poll();
+  CHECK(r.lines[m].is("IDENT"));
+  CHECK_EQ(r.lines[m]["nonce"], std::string("40961"));
+  CHECK(!r.lines[m].has("boot"));
+  m = r.mark();
+  r.send("HELLO proto=1");
+  r.poll();
+  CHECK(r.lines[m].is("IDENT"));
+  CHECK(!r.lines[m].has("nonce"));
+}
+
+TEST_CASE("BYE disarms, forgets the handshake and stops the heartbeat watch without latching") {
+  Rig r;
+  r.handshake();
+  uint16_t arm = r.send("ARM");
+  r.run(20);
+  CHECK_EQ(r.why(arm), std::string("ack"));
+  uint16_t bye = r.send("BYE");
+  r.poll();
+  CHECK_EQ(r.why(bye), std::string("ack"));
+  CHECK(!r.fw->armed());
+  CHECK(!r.fw->handshaken());
+  r.run(1000, false);
+  CHECK_EQ(r.fw->fault(), (uint8_t)db::FAULT_NONE);
+  uint16_t arm2 = r.send("ARM");
+  r.poll();
+  CHECK_EQ(r.why(arm2), std::string("not_ready"));
 }
 
 TEST_CASE("handshake answers IDENT then STAT with hbok=1; a HELLO of another version leaves it not ready") {
