@@ -26,6 +26,7 @@ import { SerialTransport } from './link/serial-transport.js';
 import type { Transport } from './link/transport.js';
 import type { VirtualBench } from './sim/index.js';
 import { Interlocks } from './interlocks/engine.js';
+import { mayTurn } from './bench/state.js';
 import { SessionKeeper } from './bench/recording.js';
 import { SessionStore } from './store/store.js';
 import { LoopMonitor } from './util/loop-monitor.js';
@@ -312,6 +313,7 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
         firmware: link.identity,
       }), (e) => tell(e))
     : null;
+  if (sessions) sessions.linkView = () => link.view();
   interlocks.on('trip', ({ rule, finding, sample }) => sessions?.addTrip(rule, finding.value, finding.limit, finding.detail, sample));
   // The same prediction `ductbench run` gives its runner, at the bench's own air.
   const predictFor = (b: Banded | null): PredictFn | null =>
@@ -645,6 +647,7 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
       hub.broadcast({ type: 'event', event });
     }
     interlocks.reset();
+    interlocks.setDeclaredRates(id.channels);
     if (banded) {
       try {
         prediction = livePrediction(banded, id.throttleCeiling, atmosphere, fits.view(rig));
@@ -762,9 +765,15 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
       sequences.cut('daemon stopping');
       calibration.close();
       zero.close();
-      // Cut first. Wait briefly for the device's ACK so the STOP is on the wire before the port closes.
-      const sent = link.sendUrgent('estop');
-      if (sent) await Promise.race([sent.acked.catch(() => {}), new Promise((r) => setTimeout(r, 300))]);
+      // A bench that may be turning is cut with STOP first (waiting briefly for its ACK so the STOP is on the wire
+      // before the port closes), which latches estop for the next host to see. A bench at rest is left as it is.
+      // Either way the session then ends with BYE, so the device does not latch heartbeat loss once the port
+      // closes: a completed sweep leaves the board disarmed with no fault (PROTOCOL.md, Ending a session).
+      if (mayTurn(controller.state) || controller.view().armed) {
+        const sent = link.sendUrgent('estop');
+        if (sent) await Promise.race([sent.acked.catch(() => {}), new Promise((r) => setTimeout(r, 300))]);
+      }
+      await link.bye();
       clearInterval(flush);
       clearInterval(linkTick);
       clearInterval(liveness);

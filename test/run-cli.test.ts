@@ -188,9 +188,11 @@ describe('ductbench run: on the virtual bench', () => {
     expect(out.points).toHaveLength(1);
     expect(r.stderr).toContain('SIGINT: cutting the throttle');
     expect(atFinish).toEqual({ output: 0, fault: 'estop', armed: false });
-    // the runner's STOP, then the closing daemon's; no throttle command after the cut
-    expect(written.filter((t) => t === 'STOP')).toHaveLength(2);
+    // the runner's STOP; the closing daemon finds the bench cut and latched, so it only ends the session with
+    // BYE (the latch stays for the next host to see); no throttle command after the cut
+    expect(written.filter((t) => t === 'STOP')).toHaveLength(1);
     expect(written[0]).toBe('STOP');
+    expect(written.indexOf('BYE')).toBeGreaterThan(0);
     expect(written).not.toContain('THR');
   });
 });

@@ -7,7 +7,8 @@
 
 import type { FaultCode, FrameOf } from '../../firmware-protocol/src/messages.js';
 import type { BenchEvent, BenchState, BenchView, EventLevel } from '../api/messages.js';
-import { CommandRefused, type DeviceLink } from '../link/link.js';
+import { RECONCILE_TIMEOUT_MS } from '../../firmware-protocol/src/host-rules.js';
+import { CommandRefused, CommandTimeout, type DeviceLink } from '../link/link.js';
 import { TypedEmitter } from '../util/emitter.js';
 import { mayTurn, nextState, type BenchInput, type Transition } from './state.js';
 
@@ -70,6 +71,7 @@ export class BenchController extends TypedEmitter<ControllerEvents> {
       this.apply({ kind: 'link_ready', firmware: `${id.firmware} ${id.firmwareVersion}` });
       link.send('STATUS', {});
     });
+    link.on('warning', (text) => this.log('warn', 'link', text));
     link.on('lost', ({ error }) => {
       this.armed = false;
       this.output = null;
@@ -131,13 +133,13 @@ export class BenchController extends TypedEmitter<ControllerEvents> {
     let cur = this.throttleCommand;
     if (value <= cur + step) {
       this.throttleCommand = value;
-      await this.device('THR', { v: value });
+      await this.throttle(value);
       return;
     }
     while (cur < value) {
       const next = Math.min(value, Math.round((cur + step) * 1e4) / 1e4);
       this.throttleCommand = next;
-      await this.device('THR', { v: next });
+      await this.throttle(next);
       cur = next;
       if (cur >= value) break;
       await new Promise((r) => setTimeout(r, RAMP_TICK_MS));
@@ -200,6 +202,48 @@ export class BenchController extends TypedEmitter<ControllerEvents> {
   async tare(): Promise<void> {
     if (this.stateValue !== 'safe') throw new ControlError(`tare only while safe (disarmed), not ${this.stateValue}`);
     await this.device('TARE', {});
+  }
+
+  /**
+   * THR, reconciled: when its ACK is lost (the line or its answer corrupted on the way), the board's next STAT
+   * says whether it was carried out. Armed at the value asked for (to STAT's 3 decimals): taken, go on.
+   * Anything else: a ControlError that says "no acknowledgement", and the caller cuts.
+   */
+  private async throttle(v: number): Promise<void> {
+    try {
+      await this.link.command('THR', { v });
+    } catch (err) {
+      if (!(err instanceof CommandTimeout && err.noAck && this.link.isReady)) return this.rethrow('THR', err);
+      const stat = await this.nextStatus(RECONCILE_TIMEOUT_MS);
+      if (stat && stat.fields.armed && Math.abs(stat.fields.out - v) <= 0.0005 + 1e-9) {
+        this.log('warn', 'command', `THR v=${v.toFixed(4)}: no acknowledgement, but the board's status shows out=${stat.fields.out.toFixed(3)}: it was carried out`);
+        return;
+      }
+      const seen = stat ? `the board's status shows armed=${stat.fields.armed ? 1 : 0} out=${stat.fields.out.toFixed(3)}` : `no status from the board within ${RECONCILE_TIMEOUT_MS} ms`;
+      throw new ControlError(`THR v=${v.toFixed(4)}: ${err.message.replace(/^THR: /, '')}, and ${seen}`);
+    }
+  }
+
+  /** Asks for a STAT and resolves with the next one to arrive, or null after timeoutMs. */
+  private nextStatus(timeoutMs: number): Promise<FrameOf<'STAT'> | null> {
+    return new Promise((resolve) => {
+      const timer = setTimeout(() => {
+        off();
+        resolve(null);
+      }, timeoutMs);
+      const off = this.link.on('frame', (f) => {
+        if (f.tag !== 'STAT') return;
+        clearTimeout(timer);
+        off();
+        resolve(f);
+      });
+      this.link.send('STATUS', {});
+    });
+  }
+
+  private rethrow(tag: string, err: unknown): never {
+    if (err instanceof CommandRefused) throw new ControlError(`device refused ${tag}: ${err.why.replace(/_/g, ' ')}`);
+    throw new ControlError((err as Error).message);
   }
 
   private async device(tag: 'ARM' | 'DISARM' | 'THR' | 'CLEAR' | 'TARE', fields: Record<string, number>): Promise<void> {

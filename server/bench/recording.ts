@@ -14,6 +14,8 @@ import type { FinalOutcome } from '../store/types.js';
 import type { SessionStore } from '../store/store.js';
 import type { AtmosphereRecord, StoredEvent } from '../store/types.js';
 import type { Calibration } from './calibration.js';
+import { linkCounters, type LinkCounters } from '../link/link.js';
+import type { LinkView } from '../api/messages.js';
 import type { BenchController } from './controller.js';
 import type { OperatingPoint } from './operating-point.js';
 import type { Sample } from './telemetry.js';
@@ -42,6 +44,9 @@ export class SessionKeeper {
   private managed = false;
   /** Told of every session opened; returns events to write into it first (the zero step of the run). */
   onBegin: ((id: number) => StoredEvent[]) | null = null;
+  /** The link's view, when the daemon wires it: each session records its own share of the link counters. */
+  linkView: (() => LinkView) | null = null;
+  private linkAtBegin: LinkCounters | null = null;
 
   constructor(
     private readonly store: SessionStore,
@@ -95,6 +100,17 @@ export class SessionKeeper {
     const rec = this.rec;
     this.rec = null;
     this.managed = false;
+    if (rec && this.linkView) {
+      // Dropped and bad lines belong to the record: a sweep measured through a noisy cable must say so.
+      const c = linkCounters(this.linkView(), this.linkAtBegin);
+      rec.addEvent({
+        t: Date.now(),
+        level: c.lines_bad_total > 0 || c.seq_gaps > 0 || c.write_dropped > 0 ? 'warn' : 'info',
+        kind: 'link',
+        text: `link: ${c.lines_ok} lines, ${c.lines_bad_total} bad, ${c.seq_gaps} missing by sequence number, ${c.write_dropped} writes dropped`,
+        data: c,
+      });
+    }
     if (rec) rec.finish(outcome);
   }
 
@@ -105,6 +121,7 @@ export class SessionKeeper {
     this.managed = intent.managed ?? false;
     const ctx = this.context();
     const when = new Date();
+    this.linkAtBegin = this.linkView ? linkCounters(this.linkView()) : null;
     try {
       this.rec = this.store.record(
       {

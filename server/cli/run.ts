@@ -8,7 +8,12 @@
 // needs none: nothing can be hurt.
 //
 // Exit codes: 0 only when the outcome is completed; 1 for tripped, aborted, interrupted or a device that did
-// not connect; 2 for bad usage or a sequence/rig that is refused before arming (stdout stays empty then).
+// not connect; 2 for bad usage or a sequence/rig/latched board that is refused before arming. With --json
+// stdout always carries one JSON object, refusals included (outcome "refused" or "failed" with the reasons).
+//
+// A board found latched is reported with its cause. A reset latch whose boot the link saw during this very
+// handshake is the one opening the port caused (auto-reset): it is cleared, and said so. Any other latch is
+// cleared only with --clear-latch, after printing what it was.
 //
 // SIGINT / SIGTERM during a run cut first (controller.stop through the runner), then the run ends as aborted.
 
@@ -18,6 +23,8 @@ import { parseLimits } from '../interlocks/limits.js';
 import { parseRig, rigGeometry } from '../model/rig.js';
 import type { RigSpec } from '../model/rig-types.js';
 import { FAULT_KINDS, type InjectedFaultKind } from '../sim/faults.js';
+import { FAULT_MEANINGS } from '../../firmware-protocol/src/doc.js';
+import { linkCounters } from '../link/link.js';
 import { loadSequence, SequenceError, SequenceRunner, formatIssue, type PredictFn, type RunPoint, type RunResult, type RunTransitionEvent, type SequencePlan } from '../sequence/index.js';
 import { helpText, parseArgs, UsageError, type CommandSpec } from './args.js';
 
@@ -84,7 +91,8 @@ export const RUN_SPEC: CommandSpec = {
     'keep-zero': { kind: 'flag', help: 'do not zero the thrust at rest before the run: keep the zero in force (the session says so)' },
     tag: { kind: 'string', value: 'T', help: 'tag for the recorded session', repeat: true },
     'data-dir': { kind: 'string', value: 'DIR', help: 'folder for recorded sessions' },
-    json: { kind: 'flag', help: 'print the result as one JSON object on stdout' },
+    json: { kind: 'flag', help: 'print the result as one JSON object on stdout (refusals included)' },
+    'clear-latch': { kind: 'flag', help: 'clear a fault the board was already latched with (after printing it) instead of refusing' },
   },
   notes: [
     'Throttle values are fractions 0..1. A sequence asking for more than the device ceiling or the rig limit is refused before anything arms.',
@@ -197,27 +205,44 @@ function readJsonFile(read: (p: string) => string, path: string, what: string): 
   }
 }
 
-/** Exit code. Never throws: usage errors and refusals are reported on stderr. */
+/** Exit code. Never throws: usage errors and refusals are reported on stderr (and with --json on stdout). */
 export async function runMain(argv: string[], io: RunIo, hooks: RunHooks = {}): Promise<number> {
-  const say = (s: string) => io.stderr(`ductbench run: ${s}\n`);
+  const said: string[] = [];
+  const say = (s: string) => {
+    said.push(s);
+    io.stderr(`ductbench run: ${s}\n`);
+  };
+  let printed = false;
+  const out: RunIo = {
+    stdout: (s) => {
+      printed = true;
+      io.stdout(s);
+    },
+    stderr: io.stderr,
+  };
+  let code: number;
   try {
-    return await runInner(argv, io, hooks, say);
+    code = await runInner(argv, out, hooks, say);
   } catch (err) {
     if (err instanceof UsageError) {
       say(`${err.message} (see ductbench run --help)`);
-      return 2;
-    }
-    if (err instanceof SequenceError) {
+      code = 2;
+    } else if (err instanceof SequenceError) {
       for (const i of err.issues) say(formatIssue(i));
-      return 2;
-    }
-    if (err instanceof RefusedError) {
+      code = 2;
+    } else if (err instanceof RefusedError) {
       say(err.message);
-      return 2;
+      code = 2;
+    } else {
+      say((err as Error).message);
+      code = 1;
     }
-    say((err as Error).message);
-    return 1;
   }
+  // --json promises one JSON object whatever happened: a script must never have to parse stderr.
+  if (!printed && code !== 0 && argv.includes('--json') && !argv.includes('--help')) {
+    io.stdout(JSON.stringify({ outcome: code === 2 ? 'refused' : 'failed', reason: said[said.length - 1] ?? 'failed', messages: said, points: [] }) + '\n');
+  }
+  return code;
 }
 
 async function runInner(argv: string[], io: RunIo, hooks: RunHooks, say: (s: string) => void): Promise<number> {
@@ -283,6 +308,8 @@ async function runInner(argv: string[], io: RunIo, hooks: RunHooks, say: (s: str
       say(err ? err.message : 'device did not connect');
       return 1;
     }
+    const latch = await settleStartLatch(daemon, Boolean(o['clear-latch']), say);
+    if (latch !== null) return latch;
     // The rig the numbers are for: the file given, else the virtual bench's own description.
     const rigInUse: RigSpec | null = rig ?? (daemon.sim ? daemon.sim.rig : null);
     const limits = parseLimits(rigInUse?.limits, 'rig limits');
@@ -358,9 +385,22 @@ async function runInner(argv: string[], io: RunIo, hooks: RunHooks, say: (s: str
     if (drift) io.stderr(`ductbench run: ${drift.reason}\n`);
 
     const id = daemon.link.identity;
+    const budget = daemon.link.lineBudget;
     const extra = {
       tags,
-      device: id ? { firmware: id.firmware, version: id.firmwareVersion, ceiling: id.throttleCeiling, source: daemon.link.view().source } : null,
+      device: id
+        ? {
+            firmware: id.firmware,
+            version: id.firmwareVersion,
+            ceiling: id.throttleCeiling,
+            source: daemon.link.view().source,
+            heartbeat_timeout_ms: id.heartbeatTimeoutMs,
+            heartbeat_interval_ms: daemon.link.heartbeatIntervalMs,
+            boot_on_connect: daemon.link.bootOnConnect,
+            line_budget: budget ? { bytes_per_s: budget.bytesPerSecond, capacity_per_s: budget.capacityPerSecond, fits: budget.fits } : null,
+          }
+        : null,
+      link: linkCounters(daemon.link.view()),
       rig: rigInUse ? rigInUse.name : null,
       faults: faults.map((f) => ({ kind: f.kind, at_s: f.at_s })),
       zero: { mode: zero.mode, offset_N: zero.offset_N, previous_offset_N: zero.previous_offset_N, reading: zero.reading, drift },
@@ -371,4 +411,34 @@ async function runInner(argv: string[], io: RunIo, hooks: RunHooks, say: (s: str
     offSignals();
     await daemon.close();
   }
+}
+
+/**
+ * Waits for the board's first STAT, then deals with a latched fault: the reset caused by opening the port is
+ * cleared (and said so); any other latch is refused unless --clear-latch, which clears it after saying what it
+ * was. Returns null to go on, or the exit code.
+ */
+async function settleStartLatch(daemon: RunningDaemon, clearLatch: boolean, say: (s: string) => void): Promise<number | null> {
+  const c = daemon.controller;
+  // The answer to HELLO is IDENT then STAT; the controller knows the fault only once that STAT is in.
+  const deadline = Date.now() + 1000;
+  while (c.view().throttleOutput === null && Date.now() < deadline && daemon.link.isReady) await new Promise((r) => setTimeout(r, 10));
+  if (c.state !== 'tripped') return null;
+  const fault = c.view().fault;
+  const meaning = fault === 'none' ? c.view().reason : `${fault}: ${FAULT_MEANINGS[fault]}`;
+  if (fault === 'reset' && daemon.link.bootOnConnect === 'reset') {
+    say('the board restarted when its port was opened (auto-reset: it booted during this handshake), so its reset latch is ours: clearing it');
+  } else if (clearLatch) {
+    say(`the board was latched before this run (${meaning}); clearing it as --clear-latch asks`);
+  } else {
+    say(`the board is latched (${meaning}). Find out why, then run again with --clear-latch to clear it`);
+    return 2;
+  }
+  try {
+    await c.acknowledge();
+  } catch (err) {
+    say(`could not clear the latch: ${(err as Error).message}`);
+    return 1;
+  }
+  return null;
 }

@@ -6,6 +6,7 @@ import { BAND_K } from '../model/band.js';
 import type { BenchState } from '../api/messages.js';
 import type { Sample } from '../bench/telemetry.js';
 import { TypedEmitter } from '../util/emitter.js';
+import { staleLimitsFor } from '../../firmware-protocol/src/host-rules.js';
 import type { Limits } from './limits.js';
 import { OK, RULES, type Finding, type Rule, type RuleContext, type Verdict } from './rules.js';
 
@@ -190,6 +191,8 @@ export class Interlocks extends TypedEmitter<InterlockEvents> {
       lastFrameAt: null,
       lastThrustAt: null,
       badLinesLastSecond: 0,
+      staleFrameMs: opts.limits.stale_ms,
+      staleThrustMs: opts.limits.thrust_stale_ms,
     };
     const tick = opts.tickMs ?? 25;
     this.tickMs = tick;
@@ -197,6 +200,19 @@ export class Interlocks extends TypedEmitter<InterlockEvents> {
       this.timer = setInterval(() => this.tick(), tick);
       this.timer.unref();
     }
+  }
+
+  /** Channel rates the device declared (IDENT caps), which set how long a silence is stale; {} before a handshake. */
+  private declaredRates: Readonly<Record<string, number>> = {};
+
+  /** Takes the device's declared channel rates (at every handshake). */
+  setDeclaredRates(rates: Readonly<Record<string, number>>): void {
+    this.declaredRates = { ...rates };
+  }
+
+  /** Frame and thrust staleness now in force (ms). */
+  get staleLimits(): { frameMs: number; thrustMs: number } {
+    return staleLimitsFor(this.declaredRates, this.limits);
   }
 
   get knownCells(): number | null {
@@ -316,6 +332,9 @@ export class Interlocks extends TypedEmitter<InterlockEvents> {
     c.lastFrameAt = this.lastFrameAt;
     c.lastThrustAt = this.lastThrustAt;
     c.badLinesLastSecond = first && last ? last.total - first.total : 0;
+    const stale = this.staleLimits;
+    c.staleFrameMs = stale.frameMs;
+    c.staleThrustMs = stale.thrustMs;
     return c;
   }
 

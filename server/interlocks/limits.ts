@@ -2,6 +2,8 @@
 // 4-cell pack); a rig file's `limits` section overrides them, validated like all configuration: unknown
 // keys are errors, so a mistyped limit never silently falls back to a default.
 
+import { DEFAULT_BAD_LINE_BURST, DEFAULT_STALE_MS, DEFAULT_THRUST_STALE_MS } from '../../firmware-protocol/src/host-rules.js';
+
 export interface Limits {
   /** Bus current (A). */
   max_current_a: number;
@@ -59,9 +61,9 @@ export const DEFAULT_LIMITS: Readonly<Limits> = Object.freeze({
   cells: 0,
   vibration_std_n: 1.5,
   vibration_window_s: 0.5,
-  stale_ms: 250,
-  thrust_stale_ms: 500,
-  bad_line_burst: 20,
+  stale_ms: DEFAULT_STALE_MS,
+  thrust_stale_ms: DEFAULT_THRUST_STALE_MS,
+  bad_line_burst: DEFAULT_BAD_LINE_BURST,
   zero_throttle_thrust_n: 1.0,
   deviation_warn_pct: 15,
   deviation_trip_pct: 40,

@@ -46,6 +46,13 @@ export interface RuleContext {
   lastThrustAt: number | null;
   /** Bad lines counted in the last second. */
   badLinesLastSecond: number;
+  /**
+   * Staleness in force (ms): the stale_ms and thrust_stale_ms limits, lengthened to STALE_PERIODS periods of the
+   * device's fastest declared channel and of its thrust channel (host-rules.ts), so a board with slow channels
+   * that sends only when it has a sample is not taken for a silent one.
+   */
+  staleFrameMs: number;
+  staleThrustMs: number;
 }
 
 /**
@@ -181,7 +188,7 @@ export const RULES: readonly Rule[] = [
     tick(c) {
       if (!c.mayTurn || c.lastFrameAt === null) return null;
       const age = c.now - c.lastFrameAt;
-      return age > c.limits.stale_ms ? { level: 'trip', value: age, limit: c.limits.stale_ms, detail: `no telemetry for ${fmt(age, 0)} ms` } : OK;
+      return age > c.staleFrameMs ? { level: 'trip', value: age, limit: c.staleFrameMs, detail: `no telemetry for ${fmt(age, 0)} ms` } : OK;
     },
   },
   {
@@ -190,7 +197,7 @@ export const RULES: readonly Rule[] = [
     tick(c) {
       if (!c.mayTurn || c.lastThrustAt === null) return null;
       const age = c.now - c.lastThrustAt;
-      return age > c.limits.thrust_stale_ms ? { level: 'trip', value: age, limit: c.limits.thrust_stale_ms, detail: `no thrust reading for ${fmt(age, 0)} ms` } : OK;
+      return age > c.staleThrustMs ? { level: 'trip', value: age, limit: c.staleThrustMs, detail: `no thrust reading for ${fmt(age, 0)} ms` } : OK;
     },
   },
   {

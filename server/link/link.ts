@@ -124,6 +124,37 @@ interface QueuedLine {
   line: string;
 }
 
+/** What a run or a session reports about its link: lines taken, lines dropped by reason, gaps, refused writes. */
+export interface LinkCounters {
+  lines_ok: number;
+  lines_bad: Record<string, number>;
+  lines_bad_total: number;
+  seq_gaps: number;
+  write_dropped: number;
+  reconnects: number;
+}
+
+/** The counters of a link view, or what they grew by since `since` (a session's share of a longer connection). */
+export function linkCounters(v: LinkView, since?: LinkCounters | null): LinkCounters {
+  const bad: Record<string, number> = {};
+  let total = 0;
+  for (const [k, n] of Object.entries(v.linesBad)) {
+    const d = n - (since?.lines_bad[k] ?? 0);
+    if (d > 0) {
+      bad[k] = d;
+      total += d;
+    }
+  }
+  return {
+    lines_ok: v.linesOk - (since?.lines_ok ?? 0),
+    lines_bad: bad,
+    lines_bad_total: total,
+    seq_gaps: v.seqGaps - (since?.seq_gaps ?? 0),
+    write_dropped: v.writeDropped - (since?.write_dropped ?? 0),
+    reconnects: v.reconnects - (since?.reconnects ?? 0),
+  };
+}
+
 export function identityFromFrame(f: FrameOf<'IDENT'>): DeviceIdentity {
   const channels: Record<string, number> = {};
   for (const item of f.fields.caps) {

@@ -506,7 +506,7 @@ export class SequenceRunner extends TypedEmitter<RunnerEvents> {
       (err: Error) => {
         this.writing = false;
         if (!isLive(this.stateValue)) return;
-        this.failAndCut(`throttle ${value} not taken: ${err.message}`);
+        this.failAndCut(`throttle ${value}: ${err.message}`);
       },
     );
   }
