@@ -49,8 +49,9 @@ const PORTS: CommandSpec = {
 const SIM: CommandSpec = {
   name: 'sim',
   summary: 'run the virtual bench behind a pseudo-terminal, as if it were a microcontroller on a serial port',
-  usage: 'ductbench sim [--sim-rig FILE] [--link PATH] [--seed N]',
+  usage: 'ductbench sim [--sim-rig FILE] [--link PATH] [--seed N] [--reset-on-open MS]',
   options: {
+    'reset-on-open': { kind: 'int', value: 'MS', help: 'behave like a board with auto-reset: restart whenever the port is opened, deaf for MS (its bootloader)', min: 0, max: 10000 },
     'sim-rig': { kind: 'string', value: 'FILE', help: 'rig file (built-in open 10-inch rig otherwise)' },
     link: { kind: 'string', value: 'PATH', help: 'path of the device-side symlink to create (default /tmp/ductbench-sim)' },
     seed: { kind: 'int', value: 'N', help: 'noise seed', min: 0 },
@@ -92,6 +93,10 @@ const COMMANDS: Record<string, { spec?: CommandSpec; summary: string; run: (argv
         },
       });
     },
+  },
+  'check-device': {
+    summary: 'check a board against wire protocol v1, naming the PROTOCOL.md section of every check (propeller off)',
+    run: async (a) => (await import('./cli/check-device.js')).checkDeviceMain(a, stdio),
   },
   calibrate: {
     summary: 'calibrate the load cell, current, voltage and rpm channels, with a dated history',
@@ -246,6 +251,7 @@ async function sim(p: Parsed): Promise<number> {
     ...(p.opts['sim-rig'] !== undefined ? { rigFile: String(p.opts['sim-rig']) } : {}),
     ...(p.opts.link !== undefined ? { link: String(p.opts.link) } : {}),
     ...(p.opts.seed !== undefined ? { seed: Number(p.opts.seed) } : {}),
+    ...(p.opts['reset-on-open'] !== undefined ? { resetOnOpenMs: Number(p.opts['reset-on-open']) } : {}),
   });
   return EXIT.ok;
 }

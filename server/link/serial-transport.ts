@@ -32,6 +32,8 @@ export class SerialTransport implements Transport {
   readonly description: string;
   private port: SerialPort | null = null;
   private reader: ReadStream | null = null;
+  /** The read descriptor when the stream does not own it (libuv reopened the tty), else null. */
+  private ownReadFd: number | null = null;
   private closing = false;
   /** Writes handed to serialport and not yet finished. */
   private queued = 0;
@@ -74,6 +76,11 @@ export class SerialTransport implements Transport {
           // Created only now, after serialport has put the line in raw mode; it reads once 'data' is listened to.
           const reader = new ReadStream(readFd);
           this.reader = reader;
+          // libuv reopens a tty by its path to get a descriptor of its own; ours then stays open after the
+          // stream is destroyed, which keeps the port open for the device side (a pty's other end never sees
+          // the close, a board's adapter never sees the host leave). Close ours ourselves in that case.
+          const handleFd = (reader as unknown as { _handle?: { fd?: number } })._handle?.fd;
+          this.ownReadFd = typeof handleFd === 'number' && handleFd !== readFd ? readFd : null;
           reader.on('data', (chunk: Buffer) => h.onData(chunk));
           // An unplugged USB port or a closed pty reads as EIO (an error) or as end of file.
           reader.on('error', (e: Error) => lost(e));
@@ -124,6 +131,14 @@ export class SerialTransport implements Transport {
     this.port = null;
     this.reader = null;
     reader?.destroy();
+    if (this.ownReadFd !== null) {
+      try {
+        closeSync(this.ownReadFd);
+      } catch {
+        // already closed: nothing to release
+      }
+      this.ownReadFd = null;
+    }
     if (!port || !port.isOpen) return Promise.resolve();
     return new Promise((resolve) => port.close(() => resolve()));
   }
