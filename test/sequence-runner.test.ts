@@ -89,9 +89,9 @@ describe('sequence runner on the virtual bench', () => {
       expect(power[i]).toBeGreaterThan(power[i - 1]);
     }
     for (const p of res.points) {
-      // 80 load-cell readings a second over a 0.5 s window
+      // 80 load-cell readings and 100 current readings a second over a 0.5 s window
       expect(p.channels.thrust!.n).toBeGreaterThanOrEqual(30);
-      expect(p.channels.current!.n).toBeGreaterThan(100);
+      expect(p.channels.current!.n).toBeGreaterThanOrEqual(40);
       expect(p.t_end - p.t_start).toBeGreaterThanOrEqual(500);
       expect(p.grams_per_watt!).toBeGreaterThan(2);
       expect(p.grams_per_watt!).toBeLessThan(40);
