@@ -5,10 +5,22 @@
 
 import { createInterface } from 'node:readline';
 
-const { runSimOnPty } = await import(new URL('../../dist/server/sim/index.js', import.meta.url).href);
+const { runSimOnPty, DEFAULT_OPEN_RIG } = await import(new URL('../../dist/server/sim/index.js', import.meta.url).href);
 
 const args = JSON.parse(process.argv[2] ?? '{}');
-const sim = await runSimOnPty({ ...(args.link ? { link: args.link } : {}), ...(args.seed !== undefined ? { seed: args.seed } : {}) });
+// rigSim: virtual-bench constants over the default rig's (e.g. heartbeat_timeout_ms); resetOnOpenMs: a board
+// with auto-reset; bugs: firmware bug switches (server/sim/firmware.ts), for the device checker's broken boards.
+const rig = args.rigSim ? { ...DEFAULT_OPEN_RIG, sim: { ...(DEFAULT_OPEN_RIG.sim ?? {}), ...args.rigSim } } : undefined;
+const sim = await runSimOnPty({
+  ...(args.link ? { link: args.link } : {}),
+  ...(args.seed !== undefined ? { seed: args.seed } : {}),
+  ...(rig ? { rig } : {}),
+  ...(args.resetOnOpenMs !== undefined ? { resetOnOpen: { bootMs: args.resetOnOpenMs } } : {}),
+});
+for (const bug of args.bugs ?? []) {
+  if (!(bug in sim.bench.firmwareBugs)) throw new Error(`unknown firmware bug ${bug}`);
+  sim.bench.firmwareBugs[bug] = true;
+}
 const say = (obj) => process.stdout.write(JSON.stringify(obj) + '\n');
 say({ type: 'ready', devicePath: sim.devicePath });
 

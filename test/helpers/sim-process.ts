@@ -7,7 +7,7 @@
 import { spawn, type ChildProcess } from 'node:child_process';
 import { existsSync } from 'node:fs';
 import { fileURLToPath } from 'node:url';
-import type { BenchSnapshot, FwTransition, InjectedFaultKind } from '../../server/sim/index.js';
+import type { BenchSnapshot, FirmwareBug, FwTransition, InjectedFaultKind } from '../../server/sim/index.js';
 
 export const BIN = fileURLToPath(new URL('../../bin/ductbench.js', import.meta.url));
 const CHILD = fileURLToPath(new URL('./sim-child.mjs', import.meta.url));
@@ -54,7 +54,9 @@ export class SimProcess {
     readonly devicePath: string,
   ) {}
 
-  static async start(opts: { seed?: number; link?: string; timeoutMs?: number } = {}): Promise<SimProcess> {
+  static async start(
+    opts: { seed?: number; link?: string; timeoutMs?: number; rigSim?: Record<string, unknown>; resetOnOpenMs?: number; bugs?: FirmwareBug[] } = {},
+  ): Promise<SimProcess> {
     assertBuilt();
     const child = spawn(process.execPath, [CHILD, JSON.stringify(opts)], { stdio: ['pipe', 'pipe', 'pipe'] });
     let stderr = '';
