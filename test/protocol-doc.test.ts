@@ -23,6 +23,7 @@ import {
   renderSummaryTable,
   spliceGenerated,
 } from '../firmware-protocol/src/doc.js';
+import { HOST_RULES } from '../firmware-protocol/src/host-rules.js';
 import { FAULT_CODES, MESSAGES, REFUSAL_CODES, type Direction, type MessageSpec, type MessageTag } from '../firmware-protocol/src/messages.js';
 
 const docPath = fileURLToPath(new URL('../firmware-protocol/PROTOCOL.md', import.meta.url));
@@ -187,6 +188,17 @@ describe('prose of PROTOCOL.md', () => {
     expect(doc).toMatch(/`MAX_LINE_BYTES` \(\d+\)/);
     expect(doc).toMatch(/`HEARTBEAT_INTERVAL_MS` \(\d+\)/);
     expect(doc).toMatch(/`DEFAULT_HEARTBEAT_TIMEOUT_MS` \(\d+\)/);
+  });
+
+  it('quotes every host rule it names with the value the host uses (host-rules.ts), and tabulates them all', () => {
+    for (const [name, value] of HOST_RULES) {
+      expect(doc, name).toContain('| `' + name + '` | ' + value + ' |');
+      for (const m of doc.matchAll(new RegExp('`' + name + '` \\((\\d+)\\)', 'g'))) expect(Number(m[1]), m[0]).toBe(value);
+    }
+    // The prose names the figures a firmware author must know, each with its value.
+    for (const name of ['HANDSHAKE_TIMEOUT_MS', 'HELLO_RETRY_MS', 'ACK_TIMEOUT_MS', 'STAT_MAX_INTERVAL_MS', 'STALE_PERIODS', 'DEFAULT_BAD_LINE_BURST', 'MIN_HEARTBEAT_TIMEOUT_MS']) {
+      expect(doc, name).toMatch(new RegExp('`' + name + '` \\(\\d+\\)'));
+    }
   });
 
   it('states the CRC check value the code computes', () => {
