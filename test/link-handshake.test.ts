@@ -135,6 +135,25 @@ describe('handshake by nonce', () => {
     expect(restarts).toEqual([]);
   });
 
+  it('telemetry and STAT streamed before the handshake are ignored: nothing reaches the bench until the answer', async () => {
+    const board = new Board();
+    board.onFrame = (f) => {
+      board.got.push(f);
+      if (f.tag !== 'HELLO') return;
+      // A board may stream before it is greeted (PROTOCOL.md, Handshake); the answer comes on the third HELLO.
+      board.say('STAT', { armed: false, out: 0, fault: 'none', hbok: false });
+      if (board.hellos().length === 3) board.ident({ nonce: f.fields.nonce });
+    };
+    const link = linkTo(board);
+    const early: string[] = [];
+    link.on('frame', (fr) => {
+      if (!link.isReady) early.push(fr.tag);
+    });
+    await link.start();
+    expect(early).toEqual([]);
+    expect(link.view().linesOk).toBeGreaterThanOrEqual(3);
+  });
+
   it('a boot IDENT while connected is a restart: the host handshakes again with a fresh nonce', async () => {
     const board = new Board();
     board.onFrame = (f) => {
