@@ -9,11 +9,12 @@ import { parseRig } from './model/rig.js';
 import { DEFAULT_DATA_DIR } from './store/store.js';
 import { resolveAtmosphere, type AtmosphereInput } from './bench/atmosphere.js';
 import type { RigSpec } from './model/rig-types.js';
+import { EXIT_INTERNAL, installLastResort } from './util/last-resort.js';
 
 const VERSION = (JSON.parse(readFileSync(new URL('../../package.json', import.meta.url), 'utf8')) as { version: string }).version;
 
-/** Exit codes: 0 done, 1 runtime failure (device, port), 2 bad usage or input. */
-export const EXIT = { ok: 0, failure: 1, usage: 2 } as const;
+/** Exit codes: 0 done, 1 runtime failure (device, port), 2 bad usage or input, 70 internal error (a bug that escaped). */
+export const EXIT = { ok: 0, failure: 1, usage: 2, internal: EXIT_INTERNAL } as const;
 
 const SERVE: CommandSpec = {
   name: 'serve',
@@ -211,6 +212,20 @@ async function serve(p: Parsed): Promise<number> {
   };
   process.on('SIGINT', () => shutdown('SIGINT'));
   process.on('SIGTERM', () => shutdown('SIGTERM'));
+  // Anything that still escapes every handler: cut, record, close, exit 70 (server/util/last-resort.ts).
+  installLastResort(daemon);
+  // Fault injection for the tests of that policy only: once the motor runs, an exception thrown from a timer,
+  // outside every handler.
+  if (process.env.DUCTBENCH_INJECT_ESCAPE === 'running') {
+    let armedFault = true;
+    daemon.controller.on('bench', (b) => {
+      if (!armedFault || b.state !== 'running') return;
+      armedFault = false;
+      setTimeout(() => {
+        throw new Error('injected escape (DUCTBENCH_INJECT_ESCAPE)');
+      }, 300);
+    });
+  }
 
   await daemon.firstConnect;
   if (!daemon.link.isReady) {

@@ -173,6 +173,11 @@ export interface RunningDaemon {
   firstConnect: Promise<void>;
   /** Cuts the throttle, then closes everything. */
   close(): Promise<void>;
+  /**
+   * For the process-level last resort (server/util/last-resort.ts): STOP on the wire at once, the reason in the
+   * open session, the session ended as aborted. Never throws, never waits.
+   */
+  fatal(reason: string): void;
   /** Subscribe to every calibrated sample (tests, benchmarks, the store). */
   onSample(fn: (s: Sample, arrivedAt: number) => void): () => void;
 }
@@ -757,6 +762,19 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     onSample(fn) {
       sampleListeners.add(fn);
       return () => sampleListeners.delete(fn);
+    },
+    fatal(reason: string) {
+      try {
+        link.sendUrgent('estop');
+      } catch {
+        // the firmware's heartbeat time-out is the layer below
+      }
+      try {
+        sessions?.addEvent({ t: Date.now(), level: 'error', kind: 'internal_error', text: reason });
+        sessions?.finish('aborted');
+      } catch {
+        // a store that cannot take the note must not hold up the exit
+      }
     },
     async close() {
       if (closed) return;

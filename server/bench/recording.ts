@@ -91,6 +91,11 @@ export class SessionKeeper {
     this.rec?.addPoint(p);
   }
 
+  /** An event for the open session's record only (the caller tells the operator itself). */
+  addEvent(e: BenchEvent): void {
+    this.rec?.addEvent(e);
+  }
+
   /** A trip with its rule, value, limit and the offending sample, as structured data. */
   addTrip(rule: string, value: number, limit: number, detail: string, sample: Sample | null): void {
     this.rec?.addEvent({ t: Date.now(), level: 'error', kind: 'trip', text: `${rule}: ${detail}`, data: { rule, value, limit, sample } });

@@ -30,21 +30,26 @@ export function allowedHosts(bindHost: string, port: number): Set<string> {
   return hosts;
 }
 
-export function hostAllowed(hostHeader: string | undefined, allowed: Set<string>): boolean {
-  if (!hostHeader) return false;
+// Every reader of a request header below is total: any value a client can send (absent, empty, repeated,
+// malformed percent-encoding, non-ASCII) gives an answer, never an exception. A throw from the synchronous
+// upgrade handler would leave the daemon's process, before the token was even checked.
+
+export function hostAllowed(hostHeader: unknown, allowed: Set<string>): boolean {
+  if (typeof hostHeader !== 'string' || hostHeader === '') return false;
   return allowed.has(hostHeader.toLowerCase());
 }
 
 /** A browser's Origin must be http://<one of our hosts>. No Origin (curl, the CLI, tests) is allowed: the token still guards. */
-export function originAllowed(origin: string | undefined, allowed: Set<string>): boolean {
+export function originAllowed(origin: unknown, allowed: Set<string>): boolean {
   if (origin === undefined) return true;
+  if (typeof origin !== 'string') return false;
   if (!origin.startsWith('http://')) return false;
   return allowed.has(origin.slice('http://'.length).toLowerCase());
 }
 
 /** Token from ?token= in a request URL. */
-export function tokenFromUrl(url: string | undefined): string | null {
-  if (!url) return null;
+export function tokenFromUrl(url: unknown): string | null {
+  if (typeof url !== 'string' || url === '') return null;
   try {
     return new URL(url, 'http://x').searchParams.get('token');
   } catch {
@@ -53,11 +58,31 @@ export function tokenFromUrl(url: string | undefined): string | null {
 }
 
 /** Token from a `ductbench_token` cookie, which the dashboard may set for itself. */
-export function tokenFromCookie(cookie: string | undefined): string | null {
-  if (!cookie) return null;
+export function tokenFromCookie(cookie: unknown): string | null {
+  if (typeof cookie !== 'string' || cookie === '') return null;
   for (const part of cookie.split(';')) {
-    const [k, ...v] = part.trim().split('=');
-    if (k === 'ductbench_token') return decodeURIComponent(v.join('='));
+    const eq = part.indexOf('=');
+    if (eq < 0 || part.slice(0, eq).trim() !== 'ductbench_token') continue;
+    // A value that is not valid percent-encoding (`%`, `%zz`, a lone surrogate) is no token at all.
+    try {
+      return decodeURIComponent(part.slice(eq + 1).trim());
+    } catch {
+      return null;
+    }
   }
   return null;
+}
+
+/** A bearer token from an Authorization header. */
+export function tokenFromBearer(header: unknown): string | null {
+  return typeof header === 'string' && header.startsWith('Bearer ') ? header.slice(7) : null;
+}
+
+/** The request target as a URL, or null for one that does not parse (`//[`, a bare `http://`). */
+export function requestUrl(target: unknown): URL | null {
+  try {
+    return new URL(typeof target === 'string' && target !== '' ? target : '/', 'http://local');
+  } catch {
+    return null;
+  }
 }

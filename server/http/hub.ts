@@ -112,9 +112,10 @@ export class Hub {
     client.lastHeardAt = now;
     client.tokens = Math.min(CLIENT_RATE_PER_S, client.tokens + ((now - client.lastRefill) / 1000) * CLIENT_RATE_PER_S);
     client.lastRefill = now;
-    // Over its budget, a client's messages are dropped unread and unanswered (answering a flood doubles it),
-    // except a short message that is a stop: that is parsed and carried out whatever the budget.
-    if (client.tokens < 1 && !(text !== null && text.length < 200 && text.includes('"stop"'))) return;
+    // Over its budget, a client's messages are dropped unanswered (answering a flood doubles it), except a
+    // stop: a short message is parsed, and carried out whatever the budget if its type is stop. The type is
+    // read from the parsed message, never from the text: `{"type":"ping","x":"stop"}` is a ping.
+    if (client.tokens < 1 && !(text !== null && text.length <= STOP_MAX_CHARS && isStop(text))) return;
     if (text === null) {
       client.tokens -= 1;
       this.send(client, { type: 'reply', id: -1, ok: false, error: 'binary messages are not accepted' });
@@ -227,6 +228,18 @@ export class Hub {
       this.setRole(asker, 'controller');
       this.send(asker, { type: 'reply', id: p!.replyId, ok: true, data: { role: 'controller' } });
     }
+  }
+}
+
+/** A stop message is short; longer texts over the budget are not even parsed. */
+const STOP_MAX_CHARS = 200;
+
+function isStop(text: string): boolean {
+  try {
+    const v = JSON.parse(text) as { type?: unknown } | null;
+    return typeof v === 'object' && v !== null && !Array.isArray(v) && v.type === 'stop';
+  } catch {
+    return false;
   }
 }
 

@@ -8,7 +8,7 @@ import type { Duplex } from 'node:stream';
 import { extname, join, normalize, resolve, sep } from 'node:path';
 import { WebSocketServer, type WebSocket } from 'ws';
 import { MAX_CLIENT_MESSAGE_BYTES } from '../api/messages.js';
-import { allowedHosts, hostAllowed, originAllowed, tokenFromCookie, tokenFromUrl, tokenMatches } from './access.js';
+import { allowedHosts, hostAllowed, originAllowed, requestUrl, tokenFromBearer, tokenFromCookie, tokenFromUrl, tokenMatches } from './access.js';
 
 const TYPES: Record<string, string> = {
   '.html': 'text/html; charset=utf-8',
@@ -79,6 +79,8 @@ export interface HttpOptions {
   webRoot: string;
   onSocket(ws: WebSocket, req: IncomingMessage): void;
   api?: Record<string, ApiHandler>;
+  /** A handler failed (answered 500): for the log. */
+  onHandlerError?(err: Error): void;
 }
 
 export interface HttpSurface {
@@ -98,8 +100,14 @@ export async function startHttp(opts: HttpOptions): Promise<HttpSurface> {
 
   const server = createServer((req, res) => {
     void handle(req, res).catch((err: Error) => {
-      if (!res.headersSent) res.writeHead(500, { 'content-type': 'text/plain' });
-      res.end(`internal error: ${err.message}\n`);
+      // A handler's own failure is this request's 500, never the daemon's: nothing here may throw again.
+      try {
+        if (!res.headersSent) res.writeHead(500, { 'content-type': 'text/plain' });
+        res.end('internal error\n');
+      } catch {
+        res.destroy();
+      }
+      opts.onHandlerError?.(err);
     });
   });
 
@@ -108,9 +116,13 @@ export async function startHttp(opts: HttpOptions): Promise<HttpSurface> {
       res.writeHead(421, { 'content-type': 'text/plain' }).end('misdirected request: unknown Host\n');
       return;
     }
-    const url = new URL(req.url ?? '/', 'http://local');
+    const url = requestUrl(req.url);
+    if (!url) {
+      res.writeHead(400, { 'content-type': 'text/plain' }).end('malformed request target\n');
+      return;
+    }
     if (url.pathname.startsWith('/api/')) {
-      const given = tokenFromUrl(req.url) ?? bearer(req) ?? tokenFromCookie(req.headers.cookie);
+      const given = tokenFromUrl(req.url) ?? tokenFromBearer(req.headers.authorization) ?? tokenFromCookie(req.headers.cookie);
       if (!tokenMatches(opts.token, given)) {
         res.writeHead(401, { 'content-type': 'application/json' }).end(JSON.stringify({ error: 'token required' }));
         return;
@@ -195,15 +207,27 @@ export async function startHttp(opts: HttpOptions): Promise<HttpSurface> {
     createReadStream(file).pipe(res);
   }
 
-  server.on('upgrade', (req, socket, head) => {
+  // The upgrade handler runs synchronously inside the HTTP parser's callback: an exception here would leave
+  // the process. The checks are total; the try is the belt to those braces.
+  server.on('upgrade', (req: IncomingMessage, socket: Duplex, head: Buffer) => {
     socket.on('error', () => socket.destroy());
-    const url = new URL(req.url ?? '/', 'http://local');
-    if (url.pathname !== '/ws') return refuseUpgrade(socket, 404, 'Not Found');
-    if (!hostAllowed(req.headers.host, hosts)) return refuseUpgrade(socket, 421, 'Misdirected Request');
-    if (!originAllowed(req.headers.origin, hosts)) return refuseUpgrade(socket, 403, 'Forbidden');
-    const given = tokenFromUrl(req.url) ?? tokenFromCookie(req.headers.cookie);
-    if (!tokenMatches(opts.token, given)) return refuseUpgrade(socket, 401, 'Unauthorized');
-    wss.handleUpgrade(req, socket, head, (ws) => opts.onSocket(ws, req));
+    try {
+      const url = requestUrl(req.url);
+      if (!url) return refuseUpgrade(socket, 400, 'Bad Request');
+      if (url.pathname !== '/ws') return refuseUpgrade(socket, 404, 'Not Found');
+      if (!hostAllowed(req.headers.host, hosts)) return refuseUpgrade(socket, 421, 'Misdirected Request');
+      if (!originAllowed(req.headers.origin, hosts)) return refuseUpgrade(socket, 403, 'Forbidden');
+      const given = tokenFromUrl(req.url) ?? tokenFromCookie(req.headers.cookie);
+      if (!tokenMatches(opts.token, given)) return refuseUpgrade(socket, 401, 'Unauthorized');
+      wss.handleUpgrade(req, socket, head, (ws) => opts.onSocket(ws, req));
+    } catch (err) {
+      try {
+        refuseUpgrade(socket, 500, 'Internal Server Error');
+      } catch {
+        socket.destroy();
+      }
+      opts.onHandlerError?.(err as Error);
+    }
   });
 
   await new Promise<void>((res, rej) => {
@@ -230,7 +254,3 @@ export async function startHttp(opts: HttpOptions): Promise<HttpSurface> {
   };
 }
 
-function bearer(req: IncomingMessage): string | null {
-  const h = req.headers.authorization;
-  return h && h.startsWith('Bearer ') ? h.slice(7) : null;
-}
