@@ -3,8 +3,6 @@
 // back through the controller alone.
 
 import { fileURLToPath } from 'node:url';
-import type { IncomingMessage } from 'node:http';
-import type { WebSocket } from 'ws';
 import {
   API_VERSION,
   CHECKLIST_IDS,
@@ -12,14 +10,12 @@ import {
   type BenchEvent,
   type ChecklistView,
   type ClientMessage,
-  type SampleBatch,
-  type Snapshot,
+  type ServerMessage,
 } from './api/messages.js';
 import { BenchController, ControlError } from './bench/controller.js';
-import { LiveBatch, SampleRing } from './bench/history.js';
 import { TelemetryPipeline, type Sample } from './bench/telemetry.js';
-import { startHttp, type HttpSurface } from './http/server.js';
-import { Hub, type Client } from './http/hub.js';
+import { WebSide } from './web/side.js';
+import type { ClientRef, WebConfig } from './web/bridge.js';
 import { newToken } from './http/access.js';
 import { DeviceLink, type LinkOptions } from './link/link.js';
 import { SerialTransport } from './link/serial-transport.js';
@@ -40,8 +36,6 @@ import { ModelFitKeeper, type ModelFitView } from './bench/model-fit.js';
 import type { Calibration } from './bench/calibration.js';
 import { SequenceService, loadExamples } from './bench/sequence-service.js';
 import { CalibrationService, type CalibrationServiceDeps } from './bench/calibration-service.js';
-import { sessionsApi } from './http/sessions-api.js';
-import { partsApi } from './http/parts-api.js';
 import { ZeroService, ZERO_DRIFT_TAG } from './bench/zero-service.js';
 import type { ZeroRules } from './bench/zero.js';
 import type { PredictFn, RunnerOptions } from './sequence/index.js';
@@ -59,6 +53,8 @@ const SNAPSHOT_MAX_POINTS = 6000;
 const EVENT_LOG_CAP = 200;
 /** Rows per live batch at most (5 kHz at 50 ms batches): beyond that a chart gains nothing and JSON costs a lot. */
 const LIVE_ROWS_PER_BATCH = 250;
+/** How often the web side reports that it is alive, with its view of the controlling dashboard. */
+const WEB_ALIVE_INTERVAL_MS = 200;
 
 export type DeviceSource =
   | { kind: 'sim'; rigFile?: string; seed?: number }
@@ -156,7 +152,8 @@ export interface RunningDaemon {
   link: DeviceLink;
   controller: BenchController;
   interlocks: Interlocks;
-  hub: Hub;
+  /** The web side (HTTP, WebSocket hub, snapshots, sessions API) on its own worker thread (server/web/). */
+  web: WebSide;
   /** The zero step before every run and the zero's drift over it. */
   zero: ZeroService;
   /** Session recording, when a data folder was given. */
@@ -279,9 +276,12 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     badLineCount: () => Object.values(link.view().linesBad).reduce((a, b) => a + b, 0),
   });
   let prediction: LivePrediction | null = null;
+  // Until the web side is up, events are only kept (its first mirror carries them).
+  let web: WebSide | null = null;
+  const broadcast = (msg: ServerMessage) => web?.broadcast(msg);
   const tell = (event: BenchEvent) => {
     events.push(event);
-    hub.broadcast({ type: 'event', event });
+    broadcast({ type: 'event', event });
     log(`[${event.level}] ${event.text}`);
   };
   const pipeline = new TelemetryPipeline();
@@ -354,7 +354,8 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     ...(opts.sequenceRunner ? { runner: opts.sequenceRunner } : {}),
   });
   sequences.on('run', (run) => {
-    hub.broadcast({ type: 'run', run });
+    broadcast({ type: 'run', run });
+    web?.mirror({ run: sequences.view(true) });
     if (run.outcome !== null) zero.afterRun();
     if (run.outcome === 'completed' && rig && rig.duct === null) calibrateModel(run.session);
   });
@@ -374,12 +375,15 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
         kind: 'model',
         text: `model calibrated on the open sweep${session !== null ? ` of session ${session}` : ''} (${f.points} points; ${Object.entries(f.parameters).map(([k, v]) => `${k} ${v!.toFixed(3)} ± ${f.uncertainties[k as keyof typeof f.uncertainties]!.toFixed(3)}`).join(', ')}): band now ±${pct.length ? Math.min(...pct).toFixed(1) : '?'} to ${pct.length ? Math.max(...pct).toFixed(1) : '?'} %`,
       });
-      hub.broadcast({ type: 'extras', extras: { prediction } });
+      broadcast({ type: 'extras', extras: { prediction } });
     } catch (err) {
       tell({ t: Date.now(), level: 'info', kind: 'model', text: `model not calibrated on this sweep: ${(err as Error).message}` });
     }
   }
-  sequences.on('point', ({ run, point }) => hub.broadcast({ type: 'run_point', run, point }));
+  sequences.on('point', ({ run, point }) => {
+    broadcast({ type: 'run_point', run, point });
+    web?.mirror({ run: sequences.view(true) });
+  });
   // The pre-arm checklist is confirmed once per daemon session, by a controlling dashboard. The CLI and
   // in-process callers of controller.arm() are not dashboards and have their own acknowledgement.
   let checklistAt: number | null = null;
@@ -399,14 +403,11 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     ...calibration.extras(),
     zero: zero.view(),
   });
-  const history = new SampleRing(HISTORY_CAPACITY);
   const events: BenchEvent[] = [];
   const sampleListeners = new Set<(s: Sample, arrivedAt: number) => void>();
-  const pending = new LiveBatch();
 
-  const hub = new Hub({
-    onConnect: (client) => snapshot(client),
-    onDisconnect: (client) => {
+  const webHandlers = {
+    onDisconnect: (client: ClientRef) => {
       if (client.role !== 'controller') return;
       // A paused run is disarmed already: end it quietly. Nobody is left to resume it.
       if (sequences.live && sequences.view(false)?.state === 'paused') {
@@ -419,8 +420,10 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
         controller.stop('controlling dashboard disconnected');
       }
     },
-    onMessage: (client, msg) => handleClient(client, msg),
-  });
+    onMessage: (client: ClientRef, msg: ClientMessage) => handleClient(client, msg),
+    onHandlerError: (message: string) => log(`ductbench: a web request failed (answered 500): ${message}`),
+    recordingId: () => sessions?.sessionId ?? null,
+  };
 
   // Calibration results are in force at once: the pipeline calibrates every following sample, and the
   // session context reads pipeline.calibration for every new session.
@@ -439,7 +442,7 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
         predict = predictFor(banded);
         if (banded && link.identity) {
           prediction = livePrediction(banded, link.identity.throttleCeiling, atmosphere, fits.view(rig));
-          hub.broadcast({ type: 'extras', extras: { prediction } });
+          broadcast({ type: 'extras', extras: { prediction } });
         }
       }
     },
@@ -450,8 +453,8 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     tell: (e) => tell(e),
     ...(opts.calibrationWorkflow ? { workflow: opts.calibrationWorkflow } : {}),
   });
-  calibration.on('status', (v) => hub.broadcast({ type: 'extras', extras: { calibration: v } }));
-  calibration.on('history', (v) => hub.broadcast({ type: 'extras', extras: { calibration_history: v } }));
+  calibration.on('status', (v) => broadcast({ type: 'extras', extras: { calibration: v } }));
+  calibration.on('history', (v) => broadcast({ type: 'extras', extras: { calibration_history: v } }));
 
   // Zero before every run: the pipeline takes the offset off every calibrated thrust reading.
   const zero = new ZeroService({
@@ -472,7 +475,7 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     ...(opts.zeroRules ? { rules: opts.zeroRules } : {}),
   });
   if (sessions) sessions.onBegin = (id) => zero.sessionOpened(id);
-  zero.on('status', (v) => hub.broadcast({ type: 'extras', extras: { zero: v } }));
+  zero.on('status', (v) => broadcast({ type: 'extras', extras: { zero: v } }));
   zero.on('drift', ({ session, view, event }) => {
     if (!store || session === null) return;
     try {
@@ -531,33 +534,18 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
       checklistAt = null;
       tell({ t: Date.now(), level: 'info', kind: 'checklist', text: 'the mount changed: the pre-arm checklist is asked for again before the next arm' });
     }
-    hub.broadcast({ type: 'extras', extras: extras() });
+    broadcast({ type: 'extras', extras: extras() });
   }
   mounts.on('mount', (st) => applyMount(st));
-  mounts.on('parts', (parts) => hub.broadcast({ type: 'extras', extras: { parts } }));
+  mounts.on('parts', (parts) => broadcast({ type: 'extras', extras: { parts } }));
   // Whether a mount is accepted follows the bench state: keep every dashboard's view of it current.
-  const mountChanged = () => hub.broadcast({ type: 'extras', extras: { mount: mounts.view() } });
+  const mountChanged = () => broadcast({ type: 'extras', extras: { mount: mounts.view() } });
   controller.on('transition', mountChanged);
   sequences.on('run', (run) => {
     if (run.outcome !== null) mountChanged();
   });
 
-  function snapshot(client: Client): Snapshot {
-    return {
-      type: 'snapshot',
-      api: API_VERSION,
-      role: client.role,
-      bench: controller.view(),
-      link: link.view(),
-      identity: link.identity,
-      history: history.toBatch(Date.now() - SNAPSHOT_WINDOW_MS, SNAPSHOT_MAX_POINTS),
-      events: events.slice(-50),
-      extras: extras(),
-      run: sequences.view(true),
-    };
-  }
-
-  async function handleClient(_client: Client, msg: ClientMessage): Promise<unknown> {
+  async function handleClient(_client: ClientRef, msg: ClientMessage): Promise<unknown> {
     switch (msg.type) {
       case 'stop':
         // During a run the runner cuts (STOP first) so the run ends as aborted rather than as a mystery trip.
@@ -568,7 +556,7 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
         if (missing.length) throw new ControlError(`checklist incomplete: not ticked: ${missing.join(', ')}`);
         checklistAt = Date.now();
         tell({ t: checklistAt, level: 'info', kind: 'checklist', text: 'pre-arm checklist confirmed by the controlling dashboard' });
-        hub.broadcast({ type: 'extras', extras: { checklist: checklistView() } });
+        broadcast({ type: 'extras', extras: { checklist: checklistView() } });
         return;
       }
       case 'arm':
@@ -641,22 +629,21 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     interlocks.onSample(s, arrivedAt);
     sessions?.addSample(s);
     for (const fn of sampleListeners) fn(s, arrivedAt);
-    history.push(s);
-    pending.add(s);
+    web?.addSample(s);
   });
   link.on('ready', (id) => {
     pipeline.reset();
     for (const text of calibrationWarningsText) {
       const event: BenchEvent = { t: Date.now(), level: 'warn', kind: 'calibration', text };
       events.push(event);
-      hub.broadcast({ type: 'event', event });
+      broadcast({ type: 'event', event });
     }
     interlocks.reset();
     interlocks.setDeclaredRates(id.channels);
     if (banded) {
       try {
         prediction = livePrediction(banded, id.throttleCeiling, atmosphere, fits.view(rig));
-        hub.broadcast({ type: 'extras', extras: extras() });
+        broadcast({ type: 'extras', extras: extras() });
       } catch (err) {
         log(`ductbench: prediction failed: ${(err as Error).message}`);
       }
@@ -665,15 +652,15 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
   interlocks.on('warning', ({ rule, finding }) => {
     const event: BenchEvent = { t: Date.now(), level: 'warn', kind: 'warning', text: `${rule}: ${finding.detail}` };
     events.push(event);
-    hub.broadcast({ type: 'event', event });
+    broadcast({ type: 'event', event });
   });
-  link.on('identity', (identity) => hub.broadcast({ type: 'identity', identity }));
-  link.on('status', (view) => hub.broadcast({ type: 'link', link: view }));
-  controller.on('bench', (bench) => hub.broadcast({ type: 'bench', bench }));
+  link.on('identity', (identity) => broadcast({ type: 'identity', identity }));
+  link.on('status', (view) => broadcast({ type: 'link', link: view }));
+  controller.on('bench', (bench) => broadcast({ type: 'bench', bench }));
   controller.on('event', (event) => {
     events.push(event);
     if (events.length > EVENT_LOG_CAP) events.splice(0, events.length - EVENT_LOG_CAP);
-    hub.broadcast({ type: 'event', event });
+    broadcast({ type: 'event', event });
     // Once closing, the STOP we send on the way out latches the device; that is not news for the operator.
     if (!closed && (event.level !== 'info' || event.kind === 'state')) log(`[${event.level}] ${event.text}`);
   });
@@ -681,12 +668,16 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
   // A controlling dashboard that sends heartbeats and then falls silent (a frozen tab) while the motor may
   // turn is treated like a lost one. The browser answers WebSocket protocol pings from its network process
   // even when the page's JavaScript is stuck, so only the page's own heartbeat tells.
+  // The web side's own silence counts the same: while it does not answer, no dashboard can see the bench or
+  // stop it (the bench's thread keeps its timing meanwhile: that is what the split is for).
   const liveness = setInterval(() => {
-    const c = hub.controller;
-    if (!c || !c.heartbeats || Date.now() - c.lastHeardAt < CONTROLLER_SILENCE_MS) return;
     if (controller.state !== 'armed' && controller.state !== 'running') return;
-    const why = `controlling dashboard silent for ${((Date.now() - c.lastHeardAt) / 1000).toFixed(1)} s`;
-    if (!sequences.cut(why)) controller.stop(why);
+    const webSilent = web ? web.silentForMs() : 0;
+    const c = web?.controller ?? null;
+    let why: string | null = null;
+    if (webSilent >= CONTROLLER_SILENCE_MS) why = `the dashboards' side of the daemon unresponsive for ${(webSilent / 1000).toFixed(1)} s`;
+    else if (c && c.heartbeats && Date.now() - c.lastHeardAt >= CONTROLLER_SILENCE_MS) why = `controlling dashboard silent for ${((Date.now() - c.lastHeardAt) / 1000).toFixed(1)} s`;
+    if (why && !sequences.cut(why)) controller.stop(why);
   }, 500);
   liveness.unref();
   // A stalled event loop is worth telling: beyond the firmware's heartbeat time-out it has already cut.
@@ -704,38 +695,39 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
   });
   loop.start();
 
-  const flush = setInterval(() => {
-    if (pending.size === 0) return;
-    hub.broadcast({ type: 'samples', batch: pending.take(LIVE_ROWS_PER_BATCH) });
-  }, BATCH_INTERVAL_MS);
   // Counters move all the time; send them once a second rather than on every line.
-  const linkTick = setInterval(() => hub.broadcast({ type: 'link', link: link.view() }), 1000);
+  const linkTick = setInterval(() => broadcast({ type: 'link', link: link.view() }), 1000);
 
   let closed = false;
-  let http: HttpSurface;
+  const webConfig: WebConfig = {
+    host,
+    port: opts.httpPort ?? DEFAULT_HTTP_PORT,
+    token,
+    webRoot: opts.webRoot ?? defaultWebRoot(),
+    dataDir: store ? opts.dataDir! : null,
+    storeUnavailable: null,
+    historyCapacity: HISTORY_CAPACITY,
+    snapshotWindowMs: SNAPSHOT_WINDOW_MS,
+    snapshotMaxPoints: SNAPSHOT_MAX_POINTS,
+    liveRowsPerBatch: LIVE_ROWS_PER_BATCH,
+    batchIntervalMs: BATCH_INTERVAL_MS,
+    aliveIntervalMs: WEB_ALIVE_INTERVAL_MS,
+  };
   try {
-    http = await startHttp({
-      host,
-      port: opts.httpPort ?? DEFAULT_HTTP_PORT,
-      token,
-      webRoot: opts.webRoot ?? defaultWebRoot(),
-      onSocket: (ws: WebSocket, _req: IncomingMessage) => hub.add(ws),
-      api: {
-        'GET /api/status': async () => ({ status: 200, body: { bench: controller.view(), link: link.view(), identity: link.identity } }),
-        ...(mounts.library ? partsApi(mounts.library) : {}),
-        ...(store
-          ? sessionsApi({ store, recordingId: () => sessions?.sessionId ?? null })
-          : {
-              'GET /api/sessions': async () => ({ status: 503, body: { error: 'this daemon keeps no sessions (started without a data folder)' } }),
-            }),
-      },
-    });
+    web = await WebSide.start(
+      webConfig,
+      { bench: controller.view(), link: link.view(), identity: link.identity, events: events.slice(-200), extras: extras(), run: sequences.view(true), recordingId: sessions?.sessionId ?? null },
+      webHandlers,
+    );
   } catch (err) {
-    clearInterval(flush);
     clearInterval(linkTick);
+    clearInterval(liveness);
+    loop.stop();
     interlocks.close();
+    store?.close();
     throw err;
   }
+  const webSide = web;
 
   // The caller decides what a failed first connection means (the CLI exits with one line; tests inspect it).
   const firstConnect = link.start().then(
@@ -745,13 +737,13 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
 
   const urlHost = host === '0.0.0.0' || host === '::' ? '127.0.0.1' : host.includes(':') ? `[${host}]` : host;
   return {
-    url: `http://${urlHost}:${http.port}/?token=${encodeURIComponent(token)}`,
-    port: http.port,
+    url: `http://${urlHost}:${webSide.port}/?token=${encodeURIComponent(token)}`,
+    port: webSide.port,
     token,
     link,
     controller,
     interlocks,
-    hub,
+    web: webSide,
     zero,
     sim,
     sessions,
@@ -792,7 +784,6 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
         if (sent) await Promise.race([sent.acked.catch(() => {}), new Promise((r) => setTimeout(r, 300))]);
       }
       await link.bye();
-      clearInterval(flush);
       clearInterval(linkTick);
       clearInterval(liveness);
       loop.stop();
@@ -800,9 +791,8 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
       // A session still open when the daemon is stopped was ended by the operator.
       sessions?.finish('aborted');
       store?.close();
-      hub.closeAll();
+      await webSide.close();
       await link.close();
-      await http.close();
     },
   };
 }

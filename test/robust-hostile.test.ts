@@ -30,7 +30,7 @@ const clients: TestClient[] = [];
 afterEach(async () => {
   for (const c of clients.splice(0)) c.ws.terminate();
   // Leave the bench as the next test expects it: disarmed, no latch, nobody connected.
-  await waitFor(() => d.hub.size === 0, 5000, 'clients gone');
+  await waitFor(() => d.web.size === 0, 5000, 'clients gone');
   if (d.controller.state === 'tripped') await d.controller.acknowledge().catch(() => {});
   if (d.sim!.state.armed) await d.controller.disarm();
   await waitFor(() => d.controller.state === 'safe', 5000, 'bench safe between tests');
@@ -211,7 +211,7 @@ describe('Host and Origin checks before the handshake (raw requests)', () => {
     // Host names are case-insensitive (RFC 9110 common practice) and LOCALHOST is not a name an attacker can
     // point at their own server, so it is accepted as localhost.
     expect(await rawUpgrade({ Host: `LOCALHOST:${p}` })).toBe(101);
-    await waitFor(() => d.hub.size === 0, 5000, 'raw sockets gone');
+    await waitFor(() => d.web.size === 0, 5000, 'raw sockets gone');
   });
 
   it('refuses odd spellings of our own address in Host with 421', async () => {
@@ -241,7 +241,7 @@ describe('Host and Origin checks before the handshake (raw requests)', () => {
     for (const h of hosts) expect(await rawUpgrade({ Host: h }), `Host: ${h}`).toBe(421);
     // No Host at all: refused too (Node answers 400 before we see it, or we answer 421).
     expect([400, 421]).toContain(await rawUpgrade({ Host: undefined }));
-    expect(d.hub.size).toBe(0);
+    expect(d.web.size).toBe(0);
   });
 
   it('refuses foreign Origins with 403, even with the right token and Host', async () => {
@@ -261,7 +261,7 @@ describe('Host and Origin checks before the handshake (raw requests)', () => {
       '',
     ];
     for (const o of origins) expect(await rawUpgrade({ Host: `127.0.0.1:${p}`, Origin: o }), `Origin: ${o}`).toBe(403);
-    expect(d.hub.size).toBe(0);
+    expect(d.web.size).toBe(0);
   });
 
   it('the token never shows in what the in-process daemon logged, nor in any event', async () => {

@@ -4,7 +4,9 @@
 import { emptyBatch, type SampleBatch, type SampleChannel } from '../api/messages.js';
 import { SAMPLE_KEYS, type Sample } from './telemetry.js';
 
-type Columns = Record<'t' | 'dt' | SampleChannel, Float64Array>;
+/** A block of rows in columns (NaN for "not sampled"): what crosses from the bench's thread to the web side's. */
+export type Columns = Record<'t' | 'dt' | SampleChannel, Float64Array>;
+export const COLUMN_KEYS = ['t', 'dt', ...SAMPLE_KEYS] as const;
 
 function columns(n: number): Columns {
   const mk = () => new Float64Array(n);
@@ -44,6 +46,20 @@ export class SampleRing {
     writeRow(this.cols, i, s);
     this.head = i + 1 === this.capacity ? 0 : i + 1;
     if (this.count < this.capacity) this.count++;
+  }
+
+  /** Rows 0..n-1 of a block, oldest first. */
+  pushColumns(c: Columns, n: number): void {
+    // A block larger than the ring leaves only its newest rows.
+    const from = Math.max(0, n - this.capacity);
+    for (let j = from; j < n; ) {
+      const i = this.head;
+      const run = Math.min(n - j, this.capacity - i);
+      for (const k of COLUMN_KEYS) this.cols[k].set(c[k].subarray(j, j + run), i);
+      j += run;
+      this.head = i + run === this.capacity ? 0 : i + run;
+      this.count = Math.min(this.capacity, this.count + run);
+    }
   }
 
   /**
@@ -98,6 +114,22 @@ export class LiveBatch {
   add(s: Sample): void {
     if (this.n === this.capacity) this.grow();
     writeRow(this.cols, this.n++, s);
+  }
+
+  /** Rows 0..n-1 of a block. */
+  addColumns(c: Columns, n: number): void {
+    while (this.n + n > this.capacity) this.grow();
+    for (const k of COLUMN_KEYS) this.cols[k].set(c[k].subarray(0, n), this.n);
+    this.n += n;
+  }
+
+  /** The rows so far as columns of their own (copies, to be transferred), and an empty batch for what follows. */
+  drain(): { cols: Columns; n: number } {
+    const n = this.n;
+    const out = {} as Columns;
+    for (const k of COLUMN_KEYS) out[k] = this.cols[k].slice(0, n);
+    this.n = 0;
+    return { cols: out, n };
   }
 
   /**

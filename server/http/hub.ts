@@ -44,7 +44,8 @@ export interface HubHandlers {
    * (when not undefined) as `data`, or for a rejection whose error has an `issues` list, those issues.
    */
   onMessage(client: Client, msg: ClientMessage): Promise<unknown>;
-  onConnect(client: Client): ServerMessage;
+  /** The first message(s) for a new client: a message, or texts already serialised (a shared snapshot). */
+  onConnect(client: Client): ServerMessage | readonly (string | Buffer)[];
   onDisconnect(client: Client): void;
 }
 
@@ -71,15 +72,20 @@ export class Hub {
     ws.on('message', (data, isBinary) => this.onRaw(client, isBinary ? null : data.toString()));
     ws.on('close', () => this.remove(client));
     ws.on('error', () => this.remove(client));
-    this.send(client, this.h.onConnect(client));
+    const first = this.h.onConnect(client);
+    if (Array.isArray(first)) for (const t of first as readonly (string | Buffer)[]) this.sendText(client, t);
+    else this.send(client, first as ServerMessage);
     return client;
   }
 
   /** Sends to every client; sample batches are skipped for clients that are behind. */
   broadcast(msg: ServerMessage): void {
     if (this.clients.size === 0) return;
-    const text = JSON.stringify(msg);
-    const droppable = msg.type === 'samples';
+    this.broadcastText(JSON.stringify(msg), msg.type === 'samples');
+  }
+
+  /** Sends a serialised message to every client; a droppable one (samples) skips clients that are behind. */
+  broadcastText(text: string, droppable: boolean): void {
     for (const c of this.clients.values()) {
       if (droppable && c.ws.bufferedAmount > SAMPLE_DROP_BYTES) {
         c.droppedBatches++;
@@ -97,14 +103,20 @@ export class Hub {
     for (const c of this.clients.values()) c.ws.close(code, reason);
   }
 
-  private sendText(c: Client, text: string): void {
+  /** Each client's role, buffer and dropped batches (diagnostics). */
+  stats(): { id: number; role: Role; bufferedAmount: number; droppedBatches: number }[] {
+    return [...this.clients.values()].map((c) => ({ id: c.id, role: c.role, bufferedAmount: c.ws.bufferedAmount, droppedBatches: c.droppedBatches }));
+  }
+
+  private sendText(c: Client, text: string | Buffer): void {
     if (c.ws.readyState !== c.ws.OPEN) return;
     if (c.ws.bufferedAmount > HARD_CAP_BYTES) {
       c.ws.terminate();
       this.remove(c);
       return;
     }
-    c.ws.send(text);
+    // A Buffer is a text frame already encoded once for many clients, not binary data.
+    c.ws.send(text, { binary: false });
   }
 
   private onRaw(client: Client, text: string | null): void {
