@@ -47,7 +47,8 @@ export const DEFAULT_HTTP_PORT = 8470;
 export const CONTROLLER_SILENCE_MS = 4000;
 /** How often sample batches go out to dashboards. */
 export const BATCH_INTERVAL_MS = 50;
-const HISTORY_CAPACITY = 200_000;
+/** Rows the web side keeps for snapshots: at 1 kHz the newest 200 s. */
+export const HISTORY_CAPACITY = 200_000;
 const SNAPSHOT_WINDOW_MS = 120_000;
 const SNAPSHOT_MAX_POINTS = 6000;
 const EVENT_LOG_CAP = 200;

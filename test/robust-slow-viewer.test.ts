@@ -7,7 +7,8 @@ import { CHECKLIST_IDS } from '../server/api/messages.js';
 import { afterEach, describe, expect, it } from 'vitest';
 import WebSocket from 'ws';
 import { startDaemon, type RunningDaemon } from '../server/daemon.js';
-import { HARD_CAP_BYTES, SAMPLE_DROP_BYTES, type Client } from '../server/http/hub.js';
+import { HARD_CAP_BYTES, SAMPLE_DROP_BYTES } from '../server/http/hub.js';
+import type { ClientStat } from '../server/web/bridge.js';
 import { waitFor } from './helpers/sim-process.js';
 import { TestClient } from './helpers/ws-client.js';
 
@@ -16,8 +17,9 @@ afterEach(async () => {
   for (const c of cleanups.splice(0).reverse()) await c();
 });
 
-function hubClients(d: RunningDaemon): Client[] {
-  return [...(d.hub as unknown as { clients: Map<number, Client> }).clients.values()];
+/** The web side's view of its clients (it runs on a worker thread: asked, not read). */
+async function hubClients(d: RunningDaemon): Promise<ClientStat[]> {
+  return (await d.web.stats()).clients;
 }
 
 describe('a frozen WebSocket viewer', () => {
@@ -35,27 +37,27 @@ describe('a frozen WebSocket viewer', () => {
     await new Promise<void>((r) => frozen.once('open', () => r()));
     // Stop reading: bytes pile up in the kernel, then in the daemon's per-client buffer.
     (frozen as unknown as { _socket: { pause(): void } })._socket.pause();
-    await waitFor(() => hubClients(d).some((c) => c.role === 'viewer'), 5000, 'viewer registered');
-    const viewer = hubClients(d).find((c) => c.role === 'viewer')!;
+    await waitFor(async () => (await hubClients(d)).some((c) => c.role === 'viewer'), 5000, 'viewer registered');
+    const viewerId = (await hubClients(d)).find((c) => c.role === 'viewer')!.id;
+    const viewer = async () => (await hubClients(d)).find((c) => c.id === viewerId);
 
     // Loopback socket buffers swallow megabytes before the daemon's own buffer grows; at the bench's few tens
     // of kB/s that would take minutes. Queue large (legitimate, non-droppable) extras messages for this client
-    // until its buffer is over the drop threshold, as a big snapshot on a slow link would.
+    // until its buffer is over the drop threshold, as a big snapshot on a slow link would. (To every client:
+    // the controller reads its copy.)
     const filler = { type: 'extras' as const, extras: { filler: 'x'.repeat(1024 * 1024) } };
-    for (let i = 0; i < 64 && viewer.ws.bufferedAmount <= SAMPLE_DROP_BYTES; i++) {
-      d.hub.send(viewer, filler);
-      await new Promise((r) => setImmediate(r));
-    }
-    expect(viewer.ws.bufferedAmount).toBeGreaterThan(SAMPLE_DROP_BYTES);
-    await waitFor(() => viewer.droppedBatches > 0, 5000, 'batches dropped for the frozen client');
+    for (let i = 0; i < 64 && (await viewer())!.bufferedAmount <= SAMPLE_DROP_BYTES; i++) d.web.broadcast(filler);
+    expect((await viewer())!.bufferedAmount).toBeGreaterThan(SAMPLE_DROP_BYTES);
+    await waitFor(async () => (await viewer())!.droppedBatches > 0, 5000, 'batches dropped for the frozen client');
 
     // Control and ingest go on as if the frozen client were not there.
     let ingested = 0;
     const off = d.onSample(() => ingested++);
     cleanups.push(off);
     const ctlMessagesBefore = ctl.messages.length;
-    const bufferedBefore = viewer.ws.bufferedAmount;
-    const droppedBefore = viewer.droppedBatches;
+    const before = (await viewer())!;
+    const bufferedBefore = before.bufferedAmount;
+    const droppedBefore = before.droppedBatches;
     // The dashboard's pre-arm checklist gate (the daemon refuses arm until it is confirmed).
     expect(await ctl.command({ type: 'checklist', items: [...CHECKLIST_IDS] })).toEqual({ ok: true });
     expect(await ctl.command({ type: 'arm' })).toEqual({ ok: true });
@@ -74,17 +76,15 @@ describe('a frozen WebSocket viewer', () => {
       .filter((m) => m.type === 'samples')
       .reduce((a, m) => a + JSON.stringify(m).length, 0);
     expect(sampleBytes).toBeGreaterThan(0);
-    expect(viewer.droppedBatches).toBeGreaterThan(droppedBefore);
-    expect(viewer.ws.bufferedAmount - bufferedBefore).toBeLessThan(sampleBytes / 2);
+    const after = (await viewer())!;
+    expect(after.droppedBatches).toBeGreaterThan(droppedBefore);
+    expect(after.bufferedAmount - bufferedBefore).toBeLessThan(sampleBytes / 2);
 
     // Past the hard cap the next message disconnects it; the controller stays connected.
-    for (let i = 0; i < 64 && viewer.ws.bufferedAmount <= HARD_CAP_BYTES; i++) {
-      d.hub.send(viewer, filler);
-      await new Promise((r) => setImmediate(r));
-    }
-    d.hub.broadcast({ type: 'extras', extras: {} });
-    await waitFor(() => !hubClients(d).includes(viewer), 5000, 'frozen client disconnected');
-    expect(hubClients(d).map((c) => c.role)).toEqual(['controller']);
+    for (let i = 0; i < 64 && ((await viewer())?.bufferedAmount ?? Infinity) <= HARD_CAP_BYTES; i++) d.web.broadcast(filler);
+    d.web.broadcast({ type: 'extras', extras: {} });
+    await waitFor(async () => (await viewer()) === undefined, 5000, 'frozen client disconnected');
+    expect((await hubClients(d)).map((c) => c.role)).toEqual(['controller']);
     expect(ctl.ws.readyState).toBe(WebSocket.OPEN);
     expect((await ctl.command({ type: 'ping' })).ok).toBe(true);
   });

@@ -275,6 +275,11 @@ export class VirtualBench {
     Object.assign(this.truthModel.mods, mods);
   }
 
+  /** The host's heartbeat as the firmware saw it since the last reset (count, longest gap). */
+  heartbeatWindow(reset = false): { count: number; maxGapMs: number } {
+    return this.fw.heartbeatWindow(reset);
+  }
+
   /** Physical truth right now (what no sensor reports exactly). */
   get truth(): Readonly<TruthState> {
     return { ...this.truthModel.state };

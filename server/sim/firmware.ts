@@ -140,6 +140,8 @@ export class Firmware {
   private _output = 0;
   private _hbOk = false;
   private lastHbUs = 0;
+  /** Heartbeats counted, and the longest gap between two of them, since the window was last reset. */
+  private hbWindow = { count: 0, maxGapUs: 0, lastUs: null as number | null };
 
   // ---- plumbing
   private nowUs = 0;
@@ -309,6 +311,10 @@ export class Firmware {
       }
       case 'HB':
         if (this._handshaken) {
+          const w = this.hbWindow;
+          if (w.lastUs !== null) w.maxGapUs = Math.max(w.maxGapUs, this.nowUs - w.lastUs);
+          w.lastUs = this.nowUs;
+          w.count++;
           this.lastHbUs = this.nowUs;
           this._hbOk = true;
         }
@@ -419,6 +425,17 @@ export class Firmware {
   }
 
   // ------------------------------------------------------------------ receive path
+
+  /**
+   * How the host's heartbeat looked from here since the last reset: how many arrived and the longest gap
+   * between two (device time; with the real-time clock, wall time to within one main-loop tick).
+   */
+  heartbeatWindow(reset = false): { count: number; maxGapMs: number } {
+    const w = this.hbWindow;
+    const out = { count: w.count, maxGapMs: w.maxGapUs / 1000 };
+    if (reset) this.hbWindow = { count: 0, maxGapUs: 0, lastUs: w.lastUs };
+    return out;
+  }
 
   private onLine(line: string): void {
     const r = decodeLine(line, 'h2d');

@@ -50,6 +50,9 @@ createInterface({ input: process.stdin }).on('line', (line) => {
       case 'transitions':
         say({ id: req.id, transitions: sim.bench.transitions });
         break;
+      case 'heartbeats':
+        say({ id: req.id, heartbeats: sim.bench.heartbeatWindow(Boolean(req.reset)) });
+        break;
       case 'inject':
         sim.bench.injectFault(req.kind, req.options ?? {});
         say({ id: req.id, ok: true });

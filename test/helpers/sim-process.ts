@@ -127,6 +127,11 @@ export class SimProcess {
     return (await this.request('transitions')).transitions as FwTransition[];
   }
 
+  /** Heartbeats the board received since the last reset and the longest gap between two, in its own time. */
+  async heartbeats(reset = false): Promise<{ count: number; maxGapMs: number }> {
+    return (await this.request('heartbeats', { reset })).heartbeats as { count: number; maxGapMs: number };
+  }
+
   async inject(kind: InjectedFaultKind, options: Record<string, unknown> = {}): Promise<void> {
     await this.request('inject', { kind, options });
   }
