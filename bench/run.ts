@@ -1,6 +1,6 @@
 // `npm run bench`: measurements side by side in one run on this machine, each beside a baseline measured the
 // same way in the same run. Prints a table and writes JSON (--out FILE, default bench-results/latest.json).
-// --quick shortens every part; --only a,b runs some parts (ingest, cut, ws, dashboard, model, memory, store).
+// --quick shortens every part; --only a,b runs some parts (ingest, cut, ws, dashboard, model, memory, store, webstall).
 // Exits 0: a target missed is printed as such, never hidden. Benchmarks are not tests: nothing here fails a build.
 
 import { mkdirSync, readFileSync, writeFileSync } from 'node:fs';
@@ -11,6 +11,7 @@ import { benchDashboard, chromiumAvailable } from './dashboard-bench.js';
 import { bareSerialportRead, bareTransportRead, daemonIngest, pythonRead, wsLatency } from './ingest.js';
 import { benchModel } from './model-bench.js';
 import { benchStore } from './store-bench.js';
+import { benchWebStall } from './web-stall.js';
 
 type Value = number | boolean | string | null;
 
@@ -213,6 +214,23 @@ async function main(): Promise<void> {
     json.points_per_session = s.points_per_session;
     ratios.recorder_over_one_per_transaction = ratio(s.insert_samples_per_s, s.baseline_one_per_transaction_samples_per_s);
     ratios.recorder_over_plain_loop = ratio(s.insert_samples_per_s, s.baseline_plain_loop_samples_per_s);
+  });
+
+  if (want('webstall')) await part('webstall', async () => {
+    log('safety path against a crowd of dashboards (0, 50, 200 at once) and a blocked web side ...');
+    const w = await benchWebStall({ quick });
+    const timeout = w.heartbeat_timeout_ms ?? 300;
+    for (const c of w.crowds) {
+      row(`hb_gap_max_ms_crowd_${c.n}`, { label: `safety path: longest heartbeat gap at the board, ${c.n} dashboards connecting at once`, value: c.crowd.hb_gap_max_ms, unit: 'ms', target: `< ${timeout}`, met: c.crowd.hb_gap_max_ms < timeout && c.crowd.running });
+      row(`hb_gap_max_ms_idle_${c.n}`, { label: '  baseline: the same window length, web side idle', value: c.idle.hb_gap_max_ms, unit: 'ms' });
+      row(`hb_written_gap_max_ms_crowd_${c.n}`, { label: '  heartbeat gap as the daemon wrote them (crowd / idle)', value: c.crowd.hb_written_gap_max_ms, unit: 'ms', note: `idle ${c.idle.hb_written_gap_max_ms.toFixed(1)} ms` });
+      row(`loop_stall_ms_crowd_${c.n}`, { label: '  bench thread: longest stall (crowd / idle)', value: c.crowd.timer_late_max_ms, unit: 'ms', note: `idle ${c.idle.timer_late_max_ms.toFixed(1)} ms${c.n ? `; crowd had its snapshots after ${c.crowd.crowd_ready_ms?.toFixed(0)} ms, ${c.crowd.snapshot_kb?.toFixed(0)} kB each` : ''}` });
+      json[`loop_stall_ms_idle_${c.n}`] = c.idle.timer_late_max_ms;
+      ratios[`hb_gap_crowd_${c.n}_over_idle`] = ratio(c.crowd.hb_gap_max_ms, c.idle.hb_gap_max_ms);
+    }
+    row('hb_gap_max_ms_web_blocked', { label: 'safety path: longest heartbeat gap at the board, web side blocked 2 s', value: w.blocked.hb_gap_max_ms, unit: 'ms', target: `< ${timeout}`, met: w.blocked.hb_gap_max_ms < timeout && w.blocked.running });
+    row('loop_stall_ms_web_blocked', { label: '  bench thread: longest stall meanwhile', value: w.blocked.timer_late_max_ms, unit: 'ms' });
+    detail.webstall = w;
   });
 
   const machine = {

@@ -10,7 +10,7 @@
 import { afterEach, describe, expect, it } from 'vitest';
 import { CONTROLLER_SILENCE_MS, HISTORY_CAPACITY, startDaemon } from '../server/daemon.js';
 import { armInProcess } from './helpers/dashboard.js';
-import { Crowd, seedHistory } from './helpers/crowd.js';
+import { Crowd, seedHistory } from '../bench/crowd.js';
 import { SimProcess, waitFor } from './helpers/sim-process.js';
 
 const cleanups: (() => Promise<void> | void)[] = [];

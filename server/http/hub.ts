@@ -24,6 +24,8 @@ export interface Client {
   lastHeardAt: number;
   /** True once the client has sent a heartbeat ping: only such a dashboard can be judged silent. */
   heartbeats: boolean;
+  /** False until its first message (the snapshot) is sent: broadcasts skip it until then. */
+  welcomed: boolean;
 }
 
 /** A pending takeover: who asked, and until when the controller may answer. */
@@ -44,8 +46,11 @@ export interface HubHandlers {
    * (when not undefined) as `data`, or for a rejection whose error has an `issues` list, those issues.
    */
   onMessage(client: Client, msg: ClientMessage): Promise<unknown>;
-  /** The first message(s) for a new client: a message, or texts already serialised (a shared snapshot). */
-  onConnect(client: Client): ServerMessage | readonly (string | Buffer)[];
+  /**
+   * The first message(s) for a new client: a message, texts already serialised (a shared snapshot), or null
+   * when the caller sends them later with welcome() (snapshots paced out to a crowd).
+   */
+  onConnect(client: Client): ServerMessage | readonly (string | Buffer)[] | null;
   onDisconnect(client: Client): void;
 }
 
@@ -66,16 +71,22 @@ export class Hub {
 
   add(ws: WebSocket): Client {
     const role: Role = this.controllerId === null ? 'controller' : 'viewer';
-    const client: Client = { id: this.nextId++, ws, role, droppedBatches: 0, tokens: CLIENT_RATE_PER_S, lastRefill: Date.now(), lastHeardAt: Date.now(), heartbeats: false };
+    const client: Client = { id: this.nextId++, ws, role, droppedBatches: 0, tokens: CLIENT_RATE_PER_S, lastRefill: Date.now(), lastHeardAt: Date.now(), heartbeats: false, welcomed: false };
     this.clients.set(client.id, client);
     if (role === 'controller') this.controllerId = client.id;
     ws.on('message', (data, isBinary) => this.onRaw(client, isBinary ? null : data.toString()));
     ws.on('close', () => this.remove(client));
     ws.on('error', () => this.remove(client));
     const first = this.h.onConnect(client);
-    if (Array.isArray(first)) for (const t of first as readonly (string | Buffer)[]) this.sendText(client, t);
-    else this.send(client, first as ServerMessage);
+    if (first !== null) this.welcome(client, Array.isArray(first) ? (first as readonly (string | Buffer)[]) : [JSON.stringify(first)]);
     return client;
+  }
+
+  /** Sends a client its first messages; from then on it gets broadcasts. */
+  welcome(client: Client, texts: readonly (string | Buffer)[]): void {
+    if (client.welcomed || !this.clients.has(client.id)) return;
+    client.welcomed = true;
+    for (const t of texts) this.sendText(client, t);
   }
 
   /** Sends to every client; sample batches are skipped for clients that are behind. */
@@ -87,6 +98,7 @@ export class Hub {
   /** Sends a serialised message to every client; a droppable one (samples) skips clients that are behind. */
   broadcastText(text: string, droppable: boolean): void {
     for (const c of this.clients.values()) {
+      if (!c.welcomed) continue;
       if (droppable && c.ws.bufferedAmount > SAMPLE_DROP_BYTES) {
         c.droppedBatches++;
         continue;

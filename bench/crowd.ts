@@ -1,11 +1,12 @@
-// Test and benchmark side of crowd-child.mjs: N dashboards connecting at once from another process, and a
+// Benchmark and test side of crowd-child.ts: N dashboards connecting at once from another process, and a
 // history seed so that their snapshots are the largest the daemon sends.
 
 import { spawn, type ChildProcess } from 'node:child_process';
 import { fileURLToPath } from 'node:url';
-import type { Sample } from '../../server/bench/telemetry.js';
+import type { Sample } from '../server/bench/telemetry.js';
 
-const CHILD = fileURLToPath(new URL('./crowd-child.mjs', import.meta.url));
+// dist/bench/crowd.js -> its sibling; bench/crowd.ts under vitest -> the compiled child (npm test builds first).
+const CHILD = fileURLToPath(import.meta.url.endsWith('.ts') ? new URL('../dist/bench/crowd-child.js', import.meta.url) : new URL('./crowd-child.js', import.meta.url));
 
 export interface CrowdReady {
   snapshots: number;
