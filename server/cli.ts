@@ -10,6 +10,7 @@ import { DEFAULT_DATA_DIR } from './store/store.js';
 import { resolveAtmosphere, type AtmosphereInput } from './bench/atmosphere.js';
 import type { RigSpec } from './model/rig-types.js';
 import { EXIT_INTERNAL, installLastResort } from './util/last-resort.js';
+import { boundAddresses } from './http/access.js';
 
 const VERSION = (JSON.parse(readFileSync(new URL('../../package.json', import.meta.url), 'utf8')) as { version: string }).version;
 
@@ -164,7 +165,11 @@ async function serve(p: Parsed): Promise<number> {
   const token = (o.token as string | undefined) ?? process.env.DUCTBENCH_TOKEN ?? undefined;
   const host = (o.host as string | undefined) ?? '127.0.0.1';
   if (host !== '127.0.0.1' && host !== 'localhost' && host !== '::1') {
-    process.stderr.write(`ductbench: WARNING: listening on ${host}: anyone who can reach this address and has the token can drive the bench\n`);
+    // The Host check accepts exactly these (and the loopback names): say which, so nobody guesses.
+    const reachable = boundAddresses(host).filter((a) => a !== '127.0.0.1' && a !== '::1');
+    process.stderr.write(
+      `ductbench: WARNING: listening on ${host} (answering as ${reachable.length ? reachable.join(', ') : 'no address but loopback'}): anyone who can reach ${reachable.length === 1 ? 'this address' : 'these addresses'} and has the token can drive the bench\n`,
+    );
   }
   // Until the device answers, keep the daemon's log to ourselves: a failed start is reported as one line.
   let early: string[] | null = [];

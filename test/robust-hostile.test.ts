@@ -31,9 +31,17 @@ afterEach(async () => {
   for (const c of clients.splice(0)) c.ws.terminate();
   // Leave the bench as the next test expects it: disarmed, no latch, nobody connected.
   await waitFor(() => d.web.size === 0, 5000, 'clients gone');
-  if (d.controller.state === 'tripped') await d.controller.acknowledge().catch(() => {});
-  if (d.sim!.state.armed) await d.controller.disarm();
-  await waitFor(() => d.controller.state === 'safe', 5000, 'bench safe between tests');
+  // A stop's latch may reach the host only after this starts: clear whatever is there until the bench is safe.
+  await waitFor(
+    async () => {
+      if (d.controller.state === 'tripped') await d.controller.acknowledge().catch(() => {});
+      else if (d.sim!.state.armed) await d.controller.disarm().catch(() => {});
+      return d.controller.state === 'safe' && !d.sim!.state.armed;
+    },
+    10_000,
+    'bench safe between tests',
+    50,
+  );
 });
 
 async function client(): Promise<TestClient> {

@@ -4,6 +4,27 @@
 // sends one) is the daemon's own, and the per-launch token matches (constant-time comparison, never logged).
 
 import { createHash, randomBytes, timingSafeEqual } from 'node:crypto';
+import { networkInterfaces, type NetworkInterfaceInfo } from 'node:os';
+
+export type InterfaceList = NodeJS.Dict<NetworkInterfaceInfo[]>;
+
+/**
+ * The addresses a daemon bound to `bindHost` is reachable at: the address itself, or for a wildcard bind the
+ * addresses of every interface (IPv4 ones for 0.0.0.0; IPv4 and IPv6 for ::, which takes both here). Read
+ * once at start: an address an interface gains later is not answered to (restart the daemon).
+ */
+export function boundAddresses(bindHost: string, ifaces: InterfaceList = networkInterfaces()): string[] {
+  if (bindHost !== '0.0.0.0' && bindHost !== '::') return [bindHost];
+  const out: string[] = [];
+  for (const list of Object.values(ifaces)) {
+    for (const a of list ?? []) {
+      if (a.family === 'IPv6' && bindHost !== '::') continue;
+      // A link-local IPv6 address needs its zone in a URL, which no Host header carries: the bare address.
+      out.push(a.address.split('%')[0].toLowerCase());
+    }
+  }
+  return [...new Set(out)];
+}
 
 export function newToken(): string {
   return randomBytes(18).toString('base64url');
@@ -19,13 +40,18 @@ export function tokenMatches(expected: string, given: string | null | undefined)
 
 /**
  * The Host values this daemon answers to, for a given bind address and port. Only canonical spellings:
- * "127.0.0.1:8470", "localhost:8470", "[::1]:8470" and the bound address itself. No trailing dots, no
+ * "127.0.0.1:8470", "localhost:8470", "[::1]:8470" and the addresses it is bound to (boundAddresses: for
+ * 0.0.0.0 those of every interface, so a LAN host can use the machine's address). No trailing dots, no
  * decimal or octal IPv4 forms, no other names: a rebinding attacker's name never matches.
  */
-export function allowedHosts(bindHost: string, port: number): Set<string> {
-  const hosts = new Set([`127.0.0.1:${port}`, `localhost:${port}`, `[::1]:${port}`]);
-  if (bindHost !== '127.0.0.1' && bindHost !== '0.0.0.0' && bindHost !== '::') {
-    hosts.add(bindHost.includes(':') ? `[${bindHost}]:${port}` : `${bindHost}:${port}`);
+export function allowedHosts(bindHost: string, port: number, ifaces?: InterfaceList): Set<string> {
+  const names = ['127.0.0.1', 'localhost', '::1', ...boundAddresses(bindHost, ifaces)];
+  const hosts = new Set<string>();
+  for (const n of names) {
+    const h = n.includes(':') ? `[${n}]` : n;
+    hosts.add(`${h}:${port}`);
+    // A browser leaves the default port out of Host.
+    if (port === 80) hosts.add(h);
   }
   return hosts;
 }
