@@ -96,7 +96,7 @@ describe('ductbench CLI', () => {
 
   it('serve on another interface warns that the bench is exposed', async () => {
     const r = await run(['serve', '--sim', '--host', '127.0.0.2', '--http-port', '0'], { untilStdout: /dashboard: http:\/\/127\.0\.0\.2:\d+\//, thenSignal: 'SIGTERM' });
-    expect(r.stderr).toMatch(/WARNING: listening on 127\.0\.0\.2: anyone who can reach this address and has the token can drive the bench/);
+    expect(r.stderr).toMatch(/WARNING: listening on 127\.0\.0\.2 \(answering as 127\.0\.0\.2\): anyone who can reach this address and has the token can drive the bench/);
     expect(r.code).toBe(0);
   });
 
