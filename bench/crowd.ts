@@ -64,8 +64,12 @@ export function seedHistory(add: (s: Sample) => void, rows: number, rateHz: numb
   const step = 1000 / rateHz;
   for (let i = 0; i < rows; i++) {
     const t = endMs - (rows - i) * step;
-    // A spinning rotor at a steady point with some ripple: every channel present, as a full TEL line gives.
+    // A spinning rotor at a steady point with some ripple: every channel present, as a full TEL line gives,
+    // at the resolution of the bench's sensors (mN, 10 mV, 10 mA, 1 rpm), which is what sets the JSON's size.
     const w = Math.sin(i / 50);
-    add({ t, dt: i * step * 1000, thrust: 4.2 + 0.05 * w, voltage: 15.9 - 0.01 * w, current: 9.1 + 0.1 * w, power: 144.7 + 1.5 * w, rpm: 8200 + 20 * w, temp: 31.5, torque: 0.061, out: 0.45 });
+    const r = (x: number, q: number) => Math.round(x / q) * q;
+    const voltage = r(15.9 - 0.01 * w, 0.01);
+    const current = r(9.1 + 0.1 * w, 0.01);
+    add({ t: Math.round(t), dt: Math.round(i * step * 1000), thrust: r(4.2 + 0.05 * w, 0.001), voltage, current, power: r(voltage * current, 0.01), rpm: Math.round(8200 + 20 * w), temp: 31.5, torque: r(0.061 + 0.001 * w, 0.0001), out: 0.45 });
   }
 }

@@ -224,7 +224,19 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
   }
   const initialSource: MountSource = opts.rig ? 'rig file' : sim ? 'virtual bench' : 'none';
   // Sessions are recorded when a data folder is given (the CLI always gives one; tests mostly do not).
-  const store = opts.dataDir ? SessionStore.open(opts.dataDir, { busyTimeoutMs: 20, ...(opts.maxDatabaseBytes ? { maxDatabaseBytes: opts.maxDatabaseBytes } : {}) }) : null;
+  // A store that cannot be opened for writing (a full disk, a read-only folder) leaves the bench usable with
+  // recording off, said plainly; the web side still lists what is there, read-only.
+  let store: SessionStore | null = null;
+  let storeWarning: string | null = null;
+  if (opts.dataDir) {
+    try {
+      store = SessionStore.open(opts.dataDir, { busyTimeoutMs: 20, ...(opts.maxDatabaseBytes ? { maxDatabaseBytes: opts.maxDatabaseBytes } : {}) });
+    } catch (err) {
+      const code = (err as { code?: string }).code;
+      storeWarning = `recording is OFF: the session store in ${opts.dataDir} cannot be written (${code ? `${code}: ` : ''}${(err as Error).message})${code === 'SQLITE_FULL' || code === 'ENOSPC' ? '; the disk is full' : ''}. The bench works; nothing is recorded until the daemon is restarted with space free`;
+      log(`ductbench: WARNING: ${storeWarning}`);
+    }
+  }
   const mounts = new MountService({
     library: store ? new PartsLibrary(store.db) : null,
     // The first rig's limits section and the command line's limits are the bench's, for every later mount too.
@@ -405,6 +417,7 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     zero: zero.view(),
   });
   const events: BenchEvent[] = [];
+  if (storeWarning) events.push({ t: Date.now(), level: 'error', kind: 'recording', text: storeWarning });
   const sampleListeners = new Set<(s: Sample, arrivedAt: number) => void>();
 
   const webHandlers = {
@@ -705,7 +718,7 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     port: opts.httpPort ?? DEFAULT_HTTP_PORT,
     token,
     webRoot: opts.webRoot ?? defaultWebRoot(),
-    dataDir: store ? opts.dataDir! : null,
+    dataDir: opts.dataDir ?? null,
     storeUnavailable: null,
     historyCapacity: HISTORY_CAPACITY,
     snapshotWindowMs: SNAPSHOT_WINDOW_MS,

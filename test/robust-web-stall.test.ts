@@ -27,7 +27,11 @@ async function benchOnPty(seed: number) {
 }
 
 describe('a crowd of dashboards and a blocked web side, with a board that keeps wall-clock time', () => {
-  it('200 dashboards at once after an hour of history, then the web side blocked 2 s: no heartbeat cut', async () => {
+  // Retried once: on a loaded two-core machine (another suite's Chromium on the other core) the board's own
+  // process or its pty relay can be starved past 300 ms, which this test cannot tell from the daemon. The
+  // failure it exists for (web work on the bench's loop) is not intermittent: 200 snapshots built on one loop
+  // stall it for seconds, every time.
+  it('200 dashboards at once after an hour of history, then the web side blocked 2 s: no heartbeat cut', { retry: 1 }, async () => {
     const { sim, d } = await benchOnPty(91);
     seedHistory((s) => d.web.addSample(s), HISTORY_CAPACITY, 1000, Date.now());
     await d.firstConnect;
@@ -55,7 +59,7 @@ describe('a crowd of dashboards and a blocked web side, with a board that keeps 
     const afterStall = await sim.heartbeats(true);
 
     const s = await sim.state();
-    expect(s.fault).toBe('none');
+    expect(s.fault, `board latched; longest gaps ${afterCrowd.maxGapMs} ms (crowd), ${afterStall.maxGapMs} ms (web side blocked)`).toBe('none');
     expect(s.mode).toBe('armed');
     expect(s.output).toBeCloseTo(0.3, 6);
     expect(d.controller.state).toBe('running');

@@ -9,7 +9,7 @@
 import type { BenchEvent, DeviceIdentity } from '../api/messages.js';
 import type { RigSpec } from '../model/rig-types.js';
 import type { MountedPart } from '../parts/types.js';
-import type { SessionRecorder } from '../store/recorder.js';
+import { describeIncomplete, type RecordSummary, type SessionRecorder } from '../store/recorder.js';
 import type { FinalOutcome } from '../store/types.js';
 import type { SessionStore } from '../store/store.js';
 import type { AtmosphereRecord, StoredEvent } from '../store/types.js';
@@ -101,7 +101,8 @@ export class SessionKeeper {
     this.rec?.addEvent({ t: Date.now(), level: 'error', kind: 'trip', text: `${rule}: ${detail}`, data: { rule, value, limit, sample } });
   }
 
-  finish(outcome: FinalOutcome): void {
+  /** Ends the open session; what it holds against what was taken, or null when none was open. */
+  finish(outcome: FinalOutcome): RecordSummary | null {
     const rec = this.rec;
     this.rec = null;
     this.managed = false;
@@ -116,7 +117,12 @@ export class SessionKeeper {
         data: c,
       });
     }
-    if (rec) rec.finish(outcome);
+    if (!rec) return null;
+    const summary = rec.finish(outcome);
+    if (!summary.complete) {
+      this.tell({ t: Date.now(), level: 'error', kind: 'recording', text: `session ${rec.id} ${outcome}, ${describeIncomplete(summary)} (disk full or unwritable)` });
+    }
+    return summary;
   }
 
   private begin(): number | null {

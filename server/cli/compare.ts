@@ -77,7 +77,7 @@ export async function compareMain(argv: readonly string[], io: CliIo): Promise<n
         throw new UsageError((err as Error).message);
       }
     }
-    const store = SessionStore.open((o['data-dir'] as string | undefined) ?? DEFAULT_DATA_DIR);
+    const store = SessionStore.openForReading((o['data-dir'] as string | undefined) ?? DEFAULT_DATA_DIR);
     let c: Comparison;
     try {
       const sessions = ids.map((id) => store.get(id));

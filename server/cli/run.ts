@@ -7,9 +7,11 @@
 // on stderr; nothing arms a real motor from a command line without it. The virtual bench (--sim, the default)
 // needs none: nothing can be hurt.
 //
-// Exit codes: 0 only when the outcome is completed; 1 for tripped, aborted, interrupted or a device that did
-// not connect; 2 for bad usage or a sequence/rig/latched board that is refused before arming. With --json
-// stdout always carries one JSON object, refusals included (outcome "refused" or "failed" with the reasons).
+// Exit codes: 0 only when the outcome is completed and recorded whole; 1 for tripped, aborted, interrupted or a
+// device that did not connect; 2 for bad usage or a sequence/rig/latched board that is refused before arming;
+// 3 for a run that completed whose record is incomplete (the disk filled: the outcome line, the JSON's `record`
+// and the session say how many points and samples were kept). With --json stdout always carries one JSON
+// object, refusals included (outcome "refused" or "failed" with the reasons).
 //
 // A board found latched is reported with its cause. A reset latch whose boot the link saw during this very
 // handshake is the one opening the port caused (auto-reset): it is cleared, and said so. Any other latch is
@@ -27,6 +29,10 @@ import { FAULT_MEANINGS } from '../../firmware-protocol/src/doc.js';
 import { linkCounters } from '../link/link.js';
 import { loadSequence, SequenceError, SequenceRunner, formatIssue, type PredictFn, type RunPoint, type RunResult, type RunTransitionEvent, type SequencePlan } from '../sequence/index.js';
 import { helpText, parseArgs, UsageError, type CommandSpec } from './args.js';
+import { describeIncomplete, type RecordSummary } from '../store/recorder.js';
+
+/** Exit status of a run that completed on the bench but whose record in the store is incomplete (disk full). */
+export const EXIT_RECORD_INCOMPLETE = 3;
 
 export interface RunIo {
   stdout: (s: string) => void;
@@ -37,7 +43,8 @@ export interface RunIo {
 export interface RunRecordHook {
   onTransition?(t: RunTransitionEvent): void;
   onPoint?(p: RunPoint): void;
-  finish?(r: RunResult): void | Promise<void>;
+  /** Ends the record; what it kept against what was taken, when the hook knows. */
+  finish?(r: RunResult): void | RecordSummary | null | Promise<void | RecordSummary | null>;
 }
 
 export interface RunRecordContext {
@@ -149,7 +156,7 @@ function pointLine(p: RunPoint, n: number): string {
   );
 }
 
-function table(r: RunResult): string {
+function table(r: RunResult, incomplete: RecordSummary | null = null): string {
   const head = ['step', 'throttle', 'thrust_N', 'std_N', 'voltage_V', 'current_A', 'power_W', 'rpm', 'temp_C', 'g_per_W', 'FM', 'settled', 'dev_%'];
   const rows = r.points.map((p) => {
     const c = p.channels;
@@ -172,7 +179,7 @@ function table(r: RunResult): string {
   const w = head.map((h, i) => Math.max(h.length, ...rows.map((row) => row[i].length)));
   const line = (cells: string[]) => cells.map((c, i) => c.padStart(w[i])).join('  ');
   const out = [line(head), ...rows.map(line)];
-  out.push('', `outcome: ${r.outcome} (${r.reason})`);
+  out.push('', `outcome: ${r.outcome} (${r.reason})${incomplete ? `; ${describeIncomplete(incomplete)}` : ''}`);
   if (r.trip) out.push(`trip: ${r.trip.rule} value ${fmt(r.trip.value, 3)} limit ${fmt(r.trip.limit, 3)}, cut ${fmt(r.trip.cut_latency_ms, 2)} ms after the reading`);
   return out.join('\n') + '\n';
 }
@@ -377,7 +384,9 @@ async function runInner(argv: string[], io: RunIo, hooks: RunHooks, say: (s: str
     // Faults are timed from the start of the run, on the device's clock (which follows real time).
     for (const f of faults) daemon.sim?.injectFault(f.kind, { after_ms: f.at_s * 1000 });
     const result = await started;
-    await record?.finish?.(result);
+    const kept = (await record?.finish?.(result)) ?? null;
+    const incomplete = kept && !kept.complete ? kept : null;
+    if (incomplete) io.stderr(`ductbench run: ${describeIncomplete(incomplete)} (disk full or unwritable)\n`);
     // The zero read again at rest: the drift over the run.
     daemon.zero.afterRun();
     await daemon.zero.settled();
@@ -404,9 +413,11 @@ async function runInner(argv: string[], io: RunIo, hooks: RunHooks, say: (s: str
       rig: rigInUse ? rigInUse.name : null,
       faults: faults.map((f) => ({ kind: f.kind, at_s: f.at_s })),
       zero: { mode: zero.mode, offset_N: zero.offset_N, previous_offset_N: zero.previous_offset_N, reading: zero.reading, drift },
+      record: kept ? { ...kept, text: kept.complete ? 'complete' : describeIncomplete(kept) } : null,
     };
-    io.stdout(o.json ? JSON.stringify(resultJson(result, extra)) + '\n' : table(result));
-    return result.outcome === 'completed' ? 0 : 1;
+    io.stdout(o.json ? JSON.stringify(resultJson(result, extra)) + '\n' : table(result, incomplete));
+    if (result.outcome !== 'completed') return 1;
+    return incomplete ? EXIT_RECORD_INCOMPLETE : 0;
   } finally {
     offSignals();
     await daemon.close();

@@ -167,7 +167,8 @@ async function run(sub: string, p: Parsed, io: CliIo): Promise<number> {
     }
   }
 
-  const store = SessionStore.open(dataDir);
+  // Commands that only read open the store read-only: they work on a full disk and write nothing.
+  const store = sub === 'list' || sub === 'show' || sub === 'export' || sub === 'report' ? SessionStore.openForReading(dataDir) : SessionStore.open(dataDir);
   try {
     switch (sub) {
       case 'list': {

@@ -6,7 +6,7 @@
 // (busy_timeout makes the CLI wait its turn instead of failing).
 
 import Database from 'better-sqlite3';
-import { mkdirSync } from 'node:fs';
+import { existsSync, mkdirSync, readFileSync, rmSync, statSync } from 'node:fs';
 import { join, resolve } from 'node:path';
 import type { SampleBatch } from '../api/messages.js';
 import type { OperatingPoint } from '../bench/operating-point.js';
@@ -15,7 +15,7 @@ import { BLOCK_COLUMNS, blockRange, MAX_BLOCK_ROWS, orderedRows, packSamples, ty
 import { keepAll, minmaxDecimator, rowsToBatch, strideDecimator, type SampleRow } from './decimate.js';
 import { InvalidInput, SessionNotFound } from './errors.js';
 import { SessionRecorder, type RecorderOptions, type RecorderSink } from './recorder.js';
-import { migrate, SAMPLE_COLUMNS } from './schema.js';
+import { migrate, SAMPLE_COLUMNS, SCHEMA_VERSION } from './schema.js';
 import type { MountedPart } from '../parts/types.js';
 import {
   SESSION_OUTCOMES,
@@ -34,10 +34,17 @@ import {
 export const DEFAULT_DATA_DIR = './ductbench-data';
 export const DB_FILE = 'sessions.sqlite';
 
+class OlderSchema extends Error {}
+
 /** A running session whose recorder has not written for this long is taken as dead even if its pid is alive (pid reuse). */
 const STALE_HEARTBEAT_MS = 60_000;
 
 export interface StoreOptions {
+  /**
+   * Open the existing file for reading only: no migration, no recovery, nothing written, so it works on a full
+   * disk (for `sessions list|show|export|report` and `compare`). Writing through it fails as SQLITE_READONLY.
+   */
+  readOnly?: boolean;
   /** Mark sessions left 'running' by a dead recorder as 'interrupted' on open (default true). */
   recover?: boolean;
   /** Upper bound on the database size; writes past it fail as a full disk would (SQLITE_FULL). */
@@ -129,6 +136,7 @@ export class SessionStore {
 
   /** Opens (creating if needed) the store in `dataDir`, brings its schema up to date and recovers dead sessions. */
   static open(dataDir: string = DEFAULT_DATA_DIR, opts: StoreOptions = {}): SessionStore {
+    if (opts.readOnly) return SessionStore.openReadOnly(dataDir, opts);
     const dir = resolve(dataDir);
     mkdirSync(dir, { recursive: true });
     const file = join(dir, DB_FILE);
@@ -149,6 +157,58 @@ export class SessionStore {
     const store = new SessionStore(db, dir, file, opts);
     if (opts.recover ?? true) store.recoverInterrupted();
     return store;
+  }
+
+  /**
+   * For commands that only read: the existing file read-only (works on a full disk, writes nothing, recovers
+   * nothing); a folder with no store yet, or a store from an older version, is opened as usual instead.
+   */
+  static openForReading(dataDir: string = DEFAULT_DATA_DIR, opts: StoreOptions = {}): SessionStore {
+    if (existsSync(join(resolve(dataDir), DB_FILE))) {
+      try {
+        return SessionStore.openReadOnly(dataDir, opts);
+      } catch (err) {
+        if (!(err instanceof OlderSchema)) throw err;
+      }
+    }
+    return SessionStore.open(dataDir, opts);
+  }
+
+  private static openReadOnly(dataDir: string, opts: StoreOptions): SessionStore {
+    const dir = resolve(dataDir);
+    const file = join(dir, DB_FILE);
+    if (!existsSync(file)) throw new Error(`no session store in ${dir} (nothing has been recorded there)`);
+    const shm = `${file}-shm`;
+    const wal = `${file}-wal`;
+    const had = { shm: existsSync(shm), wal: existsSync(wal) };
+    let db = new Database(file, { readonly: true, fileMustExist: true, timeout: opts.busyTimeoutMs ?? 5000 });
+    try {
+      db.pragma('user_version', { simple: true });
+    } catch (err) {
+      // The WAL index (-shm) cannot be created or grown: the disk is full. Remove what this attempt left
+      // (a truncated index would stop the next opener too), and read a copy of the file in memory instead,
+      // which needs nothing on disk. Only a file whose log is merged can be read that way.
+      db.close();
+      for (const [f, existed] of [[shm, had.shm], [wal, had.wal]] as const) if (!existed) rmSync(f, { force: true });
+      if (existsSync(wal) && statSync(wal).size > 0) {
+        throw new Error(`the session store in ${dir} cannot be read on this full disk (${(err as Error).message}) while its log holds unmerged changes; free some space`);
+      }
+      const copy = readFileSync(file);
+      // Bytes 18 and 19 of the header say "WAL"; an in-memory copy is read with the rollback journal format.
+      copy[18] = 1;
+      copy[19] = 1;
+      db = new Database(copy, { readonly: true });
+    }
+    try {
+      const version = db.pragma('user_version', { simple: true }) as number;
+      if (version < SCHEMA_VERSION) throw new OlderSchema(`the session store in ${dir} is from an older version (schema ${version}); open it once with a command that writes (serve, run, sessions tag) to bring it up to date`);
+      if (version > SCHEMA_VERSION) throw new Error(`the session store in ${dir} is from a newer ductbench (schema ${version}, this one knows ${SCHEMA_VERSION})`);
+      db.pragma('foreign_keys = ON');
+    } catch (err) {
+      db.close();
+      throw err;
+    }
+    return new SessionStore(db, dir, file, { ...opts, recover: false });
   }
 
   private prepare() {

@@ -151,8 +151,13 @@ if (cfg.dataDir && !storeError) {
     // A second connection to the bench's file: no recovery (the bench's own open did it, and would see its
     // live session marked interrupted), a longer busy wait than the recorder's (this thread may wait).
     store = SessionStore.open(cfg.dataDir, { recover: false, busyTimeoutMs: 2000 });
-  } catch (err) {
-    storeError = `the session store cannot be opened: ${(err as Error).message}`;
+  } catch {
+    // A full disk: what is there can still be listed and read.
+    try {
+      store = SessionStore.openForReading(cfg.dataDir, { busyTimeoutMs: 2000 });
+    } catch (err) {
+      storeError = `the session store cannot be opened: ${(err as Error).message}`;
+    }
   }
 }
 
