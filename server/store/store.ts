@@ -36,6 +36,8 @@ export const DB_FILE = 'sessions.sqlite';
 
 class OlderSchema extends Error {}
 
+const INTERRUPTED_TEXT = 'session interrupted: the recording process stopped without finishing the session; data up to its last commit is kept';
+
 /** A running session whose recorder has not written for this long is taken as dead even if its pid is alive (pid reuse). */
 const STALE_HEARTBEAT_MS = 60_000;
 
@@ -208,7 +210,9 @@ export class SessionStore {
       db.close();
       throw err;
     }
-    return new SessionStore(db, dir, file, { ...opts, recover: false });
+    const store = new SessionStore(db, dir, file, { ...opts, recover: false });
+    store.presumedDead = new Set(store.deadRunning());
+    return store;
   }
 
   private prepare() {
@@ -260,6 +264,20 @@ export class SessionStore {
    */
   recoverInterrupted(): number[] {
     const now = this.now();
+    const dead = this.deadRunning();
+    for (const id of dead) {
+      this.db.transaction(() => {
+        const last = this.lastTimeOf(id);
+        this.db.prepare("UPDATE sessions SET outcome = 'interrupted', ended_at = ?, recorder_pid = NULL WHERE id = ?").run(last, id);
+        this.st.insertEvent.run(id, last, 'warn', 'session', INTERRUPTED_TEXT, JSON.stringify({ recovered_at: now }));
+      })();
+    }
+    return dead;
+  }
+
+  /** Sessions left 'running' by a recorder that is gone (its process dead, or silent past the stale limit). */
+  private deadRunning(): number[] {
+    const now = this.now();
     const own = new Set([...this.recorders].map((r) => r.id));
     const dead: number[] = [];
     for (const r of this.st.running.all() as { id: number; recorder_pid: number | null; heartbeat_at: number | null; started_at: number }[]) {
@@ -269,21 +287,22 @@ export class SessionStore {
       if (alive && fresh) continue;
       dead.push(r.id);
     }
-    for (const id of dead) {
-      this.db.transaction(() => {
-        const last = (this.st.lastTime.get({ id }) as number | null) ?? (this.st.summary.get(id) as SessionRow).started_at;
-        this.db.prepare("UPDATE sessions SET outcome = 'interrupted', ended_at = ?, recorder_pid = NULL WHERE id = ?").run(last, id);
-        this.st.insertEvent.run(
-          id,
-          last,
-          'warn',
-          'session',
-          'session interrupted: the recording process stopped without finishing the session; data up to its last commit is kept',
-          JSON.stringify({ recovered_at: now }),
-        );
-      })();
-    }
     return dead;
+  }
+
+  private lastTimeOf(id: number): number {
+    return (this.st.lastTime.get({ id }) as number | null) ?? (this.st.summary.get(id) as SessionRow).started_at;
+  }
+
+  /**
+   * Read-only, nothing can be recovered in the file: a session whose recorder is gone is shown as the
+   * recovery would leave it (interrupted, ended at its last sample, with the same event), without writing.
+   */
+  private presumedDead: Set<number> | null = null;
+
+  private present<T extends SessionSummary>(x: T): T {
+    if (!this.presumedDead?.has(x.id) || x.outcome !== 'running') return x;
+    return { ...x, outcome: 'interrupted', ended_at: this.lastTimeOf(x.id) };
   }
 
   /** Creates a session and returns its id. `outcome` is 'running' for a live recording (see record()). */
@@ -403,14 +422,14 @@ export class SessionStore {
       (where.length ? ` WHERE ${where.join(' AND ')}` : '') +
       ' ORDER BY s.started_at DESC, s.id DESC' +
       ` LIMIT ${Math.max(0, Math.floor(filter.limit ?? -1)) || -1} OFFSET ${Math.max(0, Math.floor(filter.offset ?? 0))}`;
-    return (this.db.prepare(sql).all(...args) as SessionRow[]).map(toSummary);
+    return (this.db.prepare(sql).all(...args) as SessionRow[]).map((r) => this.present(toSummary(r)));
   }
 
   summary(id: number): SessionSummary {
     this.assertOpen();
     const row = this.st.summary.get(id) as SessionRow | undefined;
     if (!row) throw new SessionNotFound(id);
-    return toSummary(row);
+    return this.present(toSummary(row));
   }
 
   /** Context, operating points and events of one session (samples separately: they can be millions). */
@@ -423,8 +442,10 @@ export class SessionStore {
       const events = (this.st.events.all(id) as { t: number; level: StoredEvent['level']; kind: string; text: string; data_json: string | null }[]).map(
         (e): StoredEvent => ({ t: e.t, level: e.level, kind: e.kind, text: e.text, ...(e.data_json !== null ? { data: JSON.parse(e.data_json) } : {}) }),
       );
+      const shown = this.present(toSummary(row));
+      if (shown.outcome !== row.outcome) events.push({ t: shown.ended_at ?? row.started_at, level: 'warn', kind: 'session', text: `${INTERRUPTED_TEXT} (not yet written: the store was opened read-only)` });
       return {
-        ...toSummary(row),
+        ...shown,
         rig: parse(row.rig_json),
         calibration: parse(row.calibration_json),
         atmosphere: parse(row.atmosphere_json),
