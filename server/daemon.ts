@@ -91,6 +91,8 @@ export interface DaemonOptions {
   /** Rules of the zero step before every run (tests: shorter windows, a tighter drift limit). */
   zeroRules?: Partial<ZeroRules>;
   log?: (line: string) => void;
+  /** A web side silent this long while the motor may turn is taken as every dashboard lost (ms; tests shorten it). */
+  webSilenceMs?: number;
 }
 
 /** The prediction the dashboard overlays on its thrust-per-watt plot (snapshot.extras.prediction). */
@@ -689,7 +691,7 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     const webSilent = web ? web.silentForMs() : 0;
     const c = web?.controller ?? null;
     let why: string | null = null;
-    if (webSilent >= CONTROLLER_SILENCE_MS) why = `the dashboards' side of the daemon unresponsive for ${(webSilent / 1000).toFixed(1)} s`;
+    if (webSilent >= (opts.webSilenceMs ?? CONTROLLER_SILENCE_MS)) why = `the dashboards' side of the daemon unresponsive for ${(webSilent / 1000).toFixed(1)} s`;
     else if (c && c.heartbeats && Date.now() - c.lastHeardAt >= CONTROLLER_SILENCE_MS) why = `controlling dashboard silent for ${((Date.now() - c.lastHeardAt) / 1000).toFixed(1)} s`;
     if (why && !sequences.cut(why)) controller.stop(why);
   }, 500);
