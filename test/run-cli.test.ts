@@ -92,6 +92,19 @@ describe('ductbench run: on the virtual bench', () => {
     expect(daemon!.sim!.transitions.some((t) => t.to === 'armed')).toBe(false);
   });
 
+  it('with --json a refusal is a JSON object on stdout too, with every reason given on stderr', async () => {
+    const r = await run(['--staircase', '0.5,0.95,0.15', '--hold', '2', '--sim', '--json']);
+    expect(r.code, r.stderr).toBe(2);
+    const out = JSON.parse(r.stdout) as { outcome: string; reason: string; messages: string[]; points: unknown[] };
+    expect(out.outcome).toBe('refused');
+    expect(out.reason).toBe('refused before arming: nothing was sent to the motor');
+    expect(out.messages.some((m) => m.includes("0.95 is above the device's ceiling 0.9"))).toBe(true);
+    expect(out.points).toEqual([]);
+    const usage = await run(['--staircase', '0.5,0.9,0.1', '--json']);
+    expect(usage.code).toBe(2);
+    expect((JSON.parse(usage.stdout) as { outcome: string; reason: string }).reason).toMatch(/--staircase needs --hold/);
+  });
+
   it('--json on a completed run: the documented shape, exit 0', async () => {
     const recorded: { points: number; transitions: number; finished: string | null; tags: string[] } = { points: 0, transitions: 0, finished: null, tags: [] };
     const r = await run([...QUICK, '--json', '--tag', 'baseline', '--tag', 'quorrel'], {
