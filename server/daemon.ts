@@ -30,7 +30,8 @@ import { CalibrationHistory, calibrationWarnings } from './calibration/history.j
 import { resolveAtmosphere, type Atmosphere, type AtmosphereInput } from './bench/atmosphere.js';
 import { parseLimits, type Limits } from './interlocks/limits.js';
 import type { RigSpec } from './model/rig-types.js';
-import { predictAtThrottle, predictCurve, rigGeometry, type RigModel } from './model/index.js';
+import { defaultSupplyVoltage, predictAtThrottle, predictCurve, rigGeometry, withSupplyVoltage, type RigModel } from './model/index.js';
+import { SupplyEstimate } from './bench/supply-estimate.js';
 import { BAND_K, bandEdges, bandModel, CALIBRATED_CURRENT_ZERO_A, UNCALIBRATED_ZEROS, type BandSource } from './model/band.js';
 import { ModelFitKeeper, type ModelFitView } from './bench/model-fit.js';
 import type { Calibration } from './bench/calibration.js';
@@ -115,17 +116,33 @@ export interface LivePrediction {
   band_source: BandSource;
   /** The calibration on an open sweep the prediction uses, or null (then the band is the stated spread). */
   fit: ModelFitView | null;
+  /** Supply resting voltage the curve is drawn for, V: measured on the bench once it reports, else the rig's. */
+  supply_v: number;
+  supply_source: 'measured' | 'rig';
 }
 
 /** The model of the mount and its band: the fitted one when the propeller and motor were calibrated on an open sweep. */
 type Banded = ReturnType<typeof bandModel>;
 
-function livePrediction(banded: Banded, ceiling: number, atmosphere: Atmosphere, fit: ModelFitView | null): LivePrediction {
+/**
+ * The live curve, for the supply voltage measured on the bench (measuredSupply_v, see
+ * server/bench/supply-estimate.ts) or, before it reports, the rig's default; the band is evaluated at each
+ * point's predicted bus voltage so that it stays around the curve.
+ */
+function livePrediction(
+  banded: Banded,
+  ceiling: number,
+  atmosphere: Atmosphere,
+  fit: ModelFitView | null,
+  measuredSupply_v: number | null = null,
+): LivePrediction {
   const model = banded.model;
   const throttles = Array.from({ length: 30 }, (_, i) => Math.round(((i + 1) / 30) * ceiling * 1000) / 1000);
-  const curve = predictCurve(model, { throttles });
+  const curve = predictCurve(measuredSupply_v === null ? model : withSupplyVoltage(model, measuredSupply_v), { throttles });
   const geo = rigGeometry(model.rig);
   return {
+    supply_v: measuredSupply_v ?? defaultSupplyVoltage(model.rig),
+    supply_source: measuredSupply_v === null ? 'rig' : 'measured',
     rig: model.rig.name,
     density_kg_m3: curve.density_kg_m3,
     atmosphere: atmosphere.source,
@@ -136,15 +153,15 @@ function livePrediction(banded: Banded, ceiling: number, atmosphere: Atmosphere,
     grams_per_watt: curve.points.map((p) => p.gramsPerWatt),
     ideal_open_gpw: curve.points.map((p) => p.idealGramsPerWattOpen),
     ideal_ducted_gpw: curve.points.map((p) => p.idealGramsPerWattDucted),
-    ...bandArrays(banded, throttles),
+    ...bandArrays(banded, throttles, curve.points.map((p) => p.busVoltage_V)),
     band_k: BAND_K,
     band_source: banded.source,
     fit,
   };
 }
 
-function bandArrays(banded: Banded, throttles: readonly number[]): { band_lo_gpw: number[]; band_hi_gpw: number[] } {
-  const e = throttles.map((t) => bandEdges(banded.at(t)));
+function bandArrays(banded: Banded, throttles: readonly number[], busVoltages: readonly number[]): { band_lo_gpw: number[]; band_hi_gpw: number[] } {
+  const e = throttles.map((t, i) => bandEdges(banded.at(t, busVoltages[i] > 0 ? busVoltages[i] : undefined)));
   return { band_lo_gpw: e.map((x) => x.lo), band_hi_gpw: e.map((x) => x.hi) };
 }
 
@@ -269,6 +286,8 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
   };
   let banded = bandedFor(rig);
   let model: RigModel | null = banded?.model ?? null;
+  // The supply's resting voltage as measured, for the live curve (server/bench/supply-estimate.ts).
+  let supply: SupplyEstimate | null = rig ? new SupplyEstimate(rig.supply.internal_resistance_ohm) : null;
   // What the interlocks judge by for the mount in force: the band of the prediction in force (it narrows once
   // calibrated on an open sweep).
   const interlockMount = () => ({
@@ -382,7 +401,7 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
       banded = bandedFor(rig);
       model = banded?.model ?? null;
       predict = predictFor(banded);
-      if (banded && link.identity) prediction = livePrediction(banded, link.identity.throttleCeiling, atmosphere, fits.view(rig));
+      if (banded && link.identity) prediction = livePrediction(banded, link.identity.throttleCeiling, atmosphere, fits.view(rig), supply?.inUse ?? null);
       const pct = (banded && link.identity ? prediction?.band_hi_gpw.map((hi, i) => (hi / prediction!.grams_per_watt[i] - 1) * 100) : []) ?? [];
       tell({
         t: Date.now(),
@@ -457,7 +476,7 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
         model = banded?.model ?? null;
         predict = predictFor(banded);
         if (banded && link.identity) {
-          prediction = livePrediction(banded, link.identity.throttleCeiling, atmosphere, fits.view(rig));
+          prediction = livePrediction(banded, link.identity.throttleCeiling, atmosphere, fits.view(rig), supply?.inUse ?? null);
           broadcast({ type: 'extras', extras: { prediction } });
         }
       }
@@ -524,6 +543,8 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     controller.maxThrottle = limits.max_throttle;
     banded = bandedFor(rig);
     model = banded?.model ?? null;
+    // A new mount may be on another pack: its voltage is measured afresh.
+    supply = rig ? new SupplyEstimate(rig.supply.internal_resistance_ohm) : null;
     predict = predictFor(banded);
     interlocks.remount(interlockMount());
     if (sim && rig) {
@@ -537,7 +558,7 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     prediction = null;
     if (banded && link.identity) {
       try {
-        prediction = livePrediction(banded, link.identity.throttleCeiling, atmosphere, fits.view(rig));
+        prediction = livePrediction(banded, link.identity.throttleCeiling, atmosphere, fits.view(rig), supply?.inUse ?? null);
       } catch (err) {
         log(`ductbench: prediction failed: ${(err as Error).message}`);
       }
@@ -646,6 +667,17 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     sessions?.addSample(s);
     for (const fn of sampleListeners) fn(s, arrivedAt);
     web?.addSample(s);
+    // The live curve follows the pack as it drains: redrawn for the measured supply voltage when it moves.
+    supply?.add(s.t, s.voltage, s.current);
+    const measured = banded && link.identity ? (supply?.take(s.t) ?? null) : null;
+    if (measured !== null) {
+      try {
+        prediction = livePrediction(banded!, link.identity!.throttleCeiling, atmosphere, fits.view(rig), measured);
+        broadcast({ type: 'extras', extras: { prediction } });
+      } catch (err) {
+        log(`ductbench: prediction failed: ${(err as Error).message}`);
+      }
+    }
   });
   link.on('ready', (id) => {
     pipeline.reset();
@@ -658,7 +690,7 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     interlocks.setDeclaredRates(id.channels);
     if (banded) {
       try {
-        prediction = livePrediction(banded, id.throttleCeiling, atmosphere, fits.view(rig));
+        prediction = livePrediction(banded, id.throttleCeiling, atmosphere, fits.view(rig), supply?.inUse ?? null);
         broadcast({ type: 'extras', extras: extras() });
       } catch (err) {
         log(`ductbench: prediction failed: ${(err as Error).message}`);

@@ -84,7 +84,42 @@ describe('ductbench predict', () => {
     expect(help.out).toMatch(/--expansion-ratio/);
   });
 
+  it('takes the supply voltage: by default a charged pack at 4.1 V a cell, or what --supply-v says', async () => {
+    // Common practice (CHECKS.md): a lithium-polymer cell is 4.20 V full, 3.7 V nominal; 4.1 V at rest is a
+    // pack near 90 % charge. The quorrel rigs have 4 cells: 16.4 V.
+    const def = JSON.parse((await run(['--rig', 'quorrel-open.json', '--throttle', '1', '--json'])).out);
+    expect(def.supply_v).toBeCloseTo(16.4, 12);
+    expect(def.supply_source).toBe('pack');
+    const low = JSON.parse((await run(['--rig', 'quorrel-open.json', '--throttle', '1', '--supply-v', '14.8', '--json'])).out);
+    expect(low.supply_v).toBe(14.8);
+    expect(low.supply_source).toBe('given');
+    // First-order motor model (Drela 2007): at full throttle the speed follows the voltage, so a pack at
+    // 3.7 V a cell turns the propeller slower, makes less thrust and draws less power than a charged one.
+    const [a, b] = [def.points[0], low.points[0]];
+    expect(b.rpm).toBeLessThan(a.rpm);
+    expect(b.thrust_N).toBeLessThan(a.thrust_N);
+    expect(b.power_electrical_W).toBeLessThan(a.power_electrical_W);
+    // Under load the bus sags below the resting voltage, through the pack's internal resistance.
+    expect(b.voltage_V).toBeLessThan(14.8);
+    expect(b.voltage_V).toBeCloseTo(14.8 - b.current_A * 0.048, 6);
+    // The same at a thrust: more throttle on the emptier pack.
+    const t1 = JSON.parse((await run(['--rig', 'quorrel-open.json', '--thrust', '6', '--json'])).out).points[0];
+    const t2 = JSON.parse((await run(['--rig', 'quorrel-open.json', '--thrust', '6', '--supply-v', '14.8', '--json'])).out).points[0];
+    expect(t2.throttle).toBeGreaterThan(t1.throttle);
+    const text = (await run(['--rig', 'quorrel-duct.json', '--thrust', '6'])).out;
+    expect(text).toMatch(/supply 16\.40 V at rest \(pack at 4\.1 V a cell\)/);
+    expect(text).toMatch(/lip N/);
+    // The lip's share of the thrust on a ducted rig, none on an open one.
+    const duct = JSON.parse((await run(['--rig', 'quorrel-duct.json', '--thrust', '6', '--json'])).out).points[0];
+    expect(duct.lip_thrust_N).toBeGreaterThan(0);
+    expect(duct.lip_thrust_N + duct.rotor_thrust_N).toBeCloseTo(6, 8);
+    expect(t1.lip_thrust_N).toBeNull();
+  });
+
   const bad: [string[], RegExp][] = [
+    [['--rig', 'quorrel-open.json', '--supply-v', '0'], /--supply-v: must be a number of volts/],
+    [['--rig', 'quorrel-open.json', '--supply-v', 'full'], /--supply-v: must be a number of volts/],
+    [['--prop-diameter', '0.254', '--thrust', '5', '--supply-v', '16'], /--supply-v: needs a full rig/],
     [['--prop-diameter', 'abc', '--thrust', '5'], /^ductbench predict: --prop-diameter: must be a number of metres/],
     [['--prop-diameter', '0.254', '--expansion-ratio', '2', '--thrust', '5'], /--expansion-ratio: must be a number within 0\.5\.\.1\.6/],
     [['--prop-diameter', '0.254', '--thrust', '5,-1'], /--thrust: .*above 0 \(got '-1'\)/],

@@ -5,7 +5,16 @@
 
 import { airFromDensity, isaAir, SEA_LEVEL_AIR, type AirState } from '../model/atmosphere.js';
 import { modelVersion } from '../model/constants.js';
-import { buildRigModel, idealReference, predictAtThrusts, predictCurve, type PredictedPoint, type IdealReference } from '../model/predict.js';
+import {
+  buildRigModel,
+  defaultSupplyVoltage,
+  idealReference,
+  PACK_CELL_VOLTAGE,
+  predictAtThrusts,
+  predictCurve,
+  type PredictedPoint,
+  type IdealReference,
+} from '../model/predict.js';
 import { parseRig, RigError, SIGMA_MIN, SIGMA_MAX } from '../model/rig.js';
 
 export interface PredictIo {
@@ -15,7 +24,7 @@ export interface PredictIo {
 }
 
 const USAGE = `usage: ductbench predict (--rig FILE | --prop-diameter METRES [--expansion-ratio SIGMA])
-                        [--altitude METRES | --density KG_PER_M3]
+                        [--altitude METRES | --density KG_PER_M3] [--supply-v VOLTS]
                         [--thrust N[,N...] | --throttle F[,F...]] [--json]
 
   --rig FILE              rig description (JSON); gives the full prediction
@@ -23,6 +32,9 @@ const USAGE = `usage: ductbench predict (--rig FILE | --prop-diameter METRES [--
   --expansion-ratio SIGMA what-if: duct exit area / rotor disk area (${SIGMA_MIN}..${SIGMA_MAX}); omit for open
   --altitude METRES       ISA troposphere air (default sea level)
   --density KG_PER_M3     air density instead of an altitude
+  --supply-v VOLTS        supply voltage at rest (needs --rig); it sags under load through the rig's
+                          internal resistance. Default: the rig's bench-supply voltage, or its pack at
+                          ${PACK_CELL_VOLTAGE} V a cell (charged, about 90 % state of charge)
   --thrust N[,N...]       thrusts in newtons to predict at
   --throttle F[,F...]     throttle fractions 0..1 (needs --rig); default 0.1, 0.2, ... 1.0
   --json                  machine-readable output
@@ -31,7 +43,7 @@ const USAGE = `usage: ductbench predict (--rig FILE | --prop-diameter METRES [--
 
 class UsageError extends Error {}
 
-const FLAGS_WITH_VALUE = ['--rig', '--prop-diameter', '--expansion-ratio', '--altitude', '--density', '--thrust', '--throttle'] as const;
+const FLAGS_WITH_VALUE = ['--rig', '--prop-diameter', '--expansion-ratio', '--altitude', '--density', '--supply-v', '--thrust', '--throttle'] as const;
 type ValueFlag = (typeof FLAGS_WITH_VALUE)[number];
 
 interface Parsed {
@@ -92,6 +104,9 @@ interface OutPoint {
   throttle?: number | null;
   grams_per_watt?: number | null;
   voltage_V?: number | null;
+  /** Thrust on the rotor blades and on the duct (its inlet lip), N; lip null for an open rig. */
+  rotor_thrust_N?: number | null;
+  lip_thrust_N?: number | null;
   power_shaft_W?: number | null;
   reachable?: boolean;
 }
@@ -115,6 +130,8 @@ function fullPart(ref: IdealReference, p: PredictedPoint | null): OutPoint {
     throttle: p ? p.throttle : null,
     grams_per_watt: p ? p.gramsPerWatt : null,
     voltage_V: p ? p.busVoltage_V : null,
+    rotor_thrust_N: p ? p.rotorThrust_N : null,
+    lip_thrust_N: p ? p.lipThrust_N : null,
     power_shaft_W: p ? p.powerShaft_W : null,
     reachable: p !== null,
   };
@@ -126,17 +143,19 @@ function fmt(x: number | null | undefined, digits: number): string {
   return x.toFixed(digits);
 }
 
-function table(title: string, density: number, points: OutPoint[], full: boolean): string {
+function table(title: string, density: number, points: OutPoint[], full: boolean, supply: string | null): string {
   const head = full
-    ? ['thrust N', 'ideal open W', 'ideal duct W', 'elec W', 'current A', 'rpm', 'throttle', 'g/W', 'ideal g/W']
+    ? ['thrust N', 'lip N', 'ideal open W', 'ideal duct W', 'elec W', 'bus V', 'current A', 'rpm', 'throttle', 'g/W', 'ideal g/W']
     : ['thrust N', 'ideal open W', 'ideal duct W', 'ideal open g/W', 'ideal duct g/W'];
   const rows = points.map((p) =>
     full
       ? [
           fmt(p.thrust_N, 2),
+          fmt(p.lip_thrust_N, 2),
           fmt(p.ideal_power_open_W, 2),
           fmt(p.ideal_power_ducted_W, 2),
           p.reachable ? fmt(p.power_electrical_W, 1) : 'out of reach',
+          fmt(p.voltage_V, 2),
           fmt(p.current_A, 2),
           fmt(p.rpm, 0),
           fmt(p.throttle, 3),
@@ -153,7 +172,8 @@ function table(title: string, density: number, points: OutPoint[], full: boolean
   );
   const widths = head.map((h, j) => Math.max(h.length, ...rows.map((r) => r[j].length)));
   const line = (cells: string[]): string => cells.map((c, j) => c.padStart(widths[j])).join('  ');
-  return [`${title}  (air density ${density.toFixed(4)} kg/m^3)`, line(head), ...rows.map(line)].join('\n') + '\n';
+  const air = `air density ${density.toFixed(4)} kg/m^3${supply ? `, ${supply}` : ''}`;
+  return [`${title}  (${air})`, line(head), ...rows.map(line)].join('\n') + '\n';
 }
 
 function jsonSafe(_key: string, v: unknown): unknown {
@@ -191,6 +211,8 @@ export async function predictMain(argv: string[], io: PredictIo): Promise<number
     let points: OutPoint[];
     let full: boolean;
     let sigmaOut: number | null;
+    let supplyOut: { voltage_v: number; source: 'given' | 'bench supply' | 'pack' } | null = null;
+    if (v['--supply-v'] !== undefined && v['--rig'] === undefined) throw new UsageError('--supply-v: needs a full rig (--rig FILE)');
     if (v['--rig'] !== undefined) {
       for (const f of ['--prop-diameter', '--expansion-ratio'] as const) {
         if (v[f] !== undefined) throw new UsageError(`${f}: only for what-if runs without --rig (the rig file sets it)`);
@@ -215,7 +237,15 @@ export async function predictMain(argv: string[], io: PredictIo): Promise<number
         if (e instanceof RigError) throw new UsageError(`${file}: ${e.message}`);
         throw e;
       }
-      const model = buildRigModel(rig, { air });
+      const supplyV =
+        v['--supply-v'] === undefined
+          ? undefined
+          : number('--supply-v', v['--supply-v'], 'must be a number of volts within 0..1000 and above 0', (x) => x > 0 && x <= 1000);
+      supplyOut = {
+        voltage_v: supplyV ?? defaultSupplyVoltage(rig),
+        source: supplyV !== undefined ? 'given' : rig.supply.voltage_v !== undefined ? 'bench supply' : 'pack',
+      };
+      const model = buildRigModel(rig, { air, openCircuitVoltage_v: supplyOut.voltage_v });
       sigmaOut = model.geometry.sigma;
       full = true;
       title = `rig ${rig.name}${rig.duct ? ` (duct, sigma ${model.geometry.sigma!.toFixed(3)})` : ' (open)'}`;
@@ -244,9 +274,13 @@ export async function predictMain(argv: string[], io: PredictIo): Promise<number
     }
 
     if (a.json) {
-      io.stdout(JSON.stringify({ density_kg_m3: rho, sigma: sigmaOut, model_version: modelVersion, points }, jsonSafe) + '\n');
+      const supply = supplyOut ? { supply_v: supplyOut.voltage_v, supply_source: supplyOut.source } : {};
+      io.stdout(JSON.stringify({ density_kg_m3: rho, sigma: sigmaOut, ...supply, model_version: modelVersion, points }, jsonSafe) + '\n');
     } else {
-      io.stdout(table(title, rho, points, full));
+      const supplyText = supplyOut
+        ? `supply ${supplyOut.voltage_v.toFixed(2)} V at rest (${supplyOut.source === 'pack' ? `pack at ${PACK_CELL_VOLTAGE} V a cell` : supplyOut.source})`
+        : null;
+      io.stdout(table(title, rho, points, full, supplyText));
     }
     return 0;
   } catch (e) {

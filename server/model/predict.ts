@@ -4,8 +4,11 @@
 //
 // A RigModel is built once from a rig and the air (inflow solved, duct losses evaluated) and then evaluated
 // as often as needed; building is the only costly step. Without a measured bus voltage the supply's
-// open-circuit voltage is the cell count times the nominal 3.7 V per lithium-polymer cell (common practice),
-// or the bench supply's set voltage, and it sags through the internal resistance.
+// open-circuit voltage is the cell count times PACK_CELL_VOLTAGE, 4.1 V: a lithium-polymer cell at rest near
+// 90 % state of charge, the state a bench run starts in (common practice: 4.20 V full, 3.7 V nominal, about
+// 4.1 V after the first minutes off the charger), or the bench supply's set voltage; it sags through the
+// internal resistance. The nominal 3.7 V would be a pack near half charge and predicts about 10 % less
+// speed at full throttle than a charged pack gives.
 
 import { SEA_LEVEL_AIR, type AirState } from './atmosphere.js';
 import type { AirfoilPolar } from './airfoil.js';
@@ -25,8 +28,8 @@ import { rigGeometry, type RigGeometry } from './rig.js';
 import type { RigSpec } from './rig-types.js';
 import { tableLoad } from './static-table.js';
 
-/** Nominal lithium-polymer cell voltage (common practice). */
-export const NOMINAL_CELL_VOLTAGE = 3.7;
+/** Resting voltage of a charged lithium-polymer cell, about 90 % state of charge (common practice). */
+export const PACK_CELL_VOLTAGE = 4.1;
 
 export interface ModelOptions {
   air?: AirState;
@@ -57,6 +60,23 @@ export interface RigModel {
   readonly source: 'bemt' | 'table';
   readonly load: PropellerLoad;
   readonly drivetrain: Drivetrain;
+}
+
+/** The supply's resting voltage when nothing was measured: the bench supply's setting or a charged pack. */
+export function defaultSupplyVoltage(rig: Pick<RigSpec, 'supply'>): number {
+  return rig.supply.voltage_v ?? (rig.supply.cells ?? 0) * PACK_CELL_VOLTAGE;
+}
+
+/**
+ * The same model on another supply resting voltage (measured, or given): nothing aerodynamic is solved
+ * again, so the daemon can follow a pack as it drains.
+ */
+export function withSupplyVoltage(model: RigModel, openCircuit_v: number): RigModel {
+  if (!(Number.isFinite(openCircuit_v) && openCircuit_v > 0)) {
+    throw new RangeError(`openCircuit_v: must be a positive number of volts (got ${openCircuit_v})`);
+  }
+  const d = model.drivetrain;
+  return { ...model, drivetrain: { ...d, supply: { ...d.supply, openCircuit_v } } };
 }
 
 /** Build the evaluable model of a validated rig. */
@@ -91,7 +111,10 @@ export function buildRigModel(rig: RigSpec, opts: ModelOptions = {}): RigModel {
     };
   }
   const s = rig.supply;
-  const openCircuit_v = opts.openCircuitVoltage_v ?? (s.voltage_v ?? (s.cells ?? 0) * NOMINAL_CELL_VOLTAGE);
+  const openCircuit_v = opts.openCircuitVoltage_v ?? defaultSupplyVoltage(rig);
+  if (!(Number.isFinite(openCircuit_v) && openCircuit_v > 0)) {
+    throw new RangeError(`openCircuitVoltage_v: must be a positive number of volts (got ${openCircuit_v})`);
+  }
   const drivetrain: Drivetrain = {
     motor: {
       kv_rpm_per_v: rig.motor.kv_rpm_per_v,
