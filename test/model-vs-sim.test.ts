@@ -31,12 +31,12 @@ const THROTTLES = [0.3, 0.4, 0.5, 0.6, 0.7, 0.8, 0.9];
  * Largest |deviation| of the calibrated model's grams per watt from the bench's, over every ducted point, %.
  * Re-measured when the bench's duct became a table of its own (server/sim/truth.ts) instead of sharing the
  * model's duct formulas, which made the earlier "within 10 %" partly true by construction. Measured on
- * 2026-12-02: 4.4 % max (3.5 % RMS) on the default duct, 6.3 % max (3.5 % RMS) over the 20 ducts of the
- * geometry test below (the sharp lip, the widest lips and the diffuser just past its onset are the worst).
- * Other seeds (7/8, 77, 140+) gave 3.8 % and 6.5 %. Rounded up to the next whole percent; the seeds are
- * fixed, so the figure is reproducible.
+ * 2026-12-02 (with the Reynolds-number effect on lift): 4.5 % max (3.3 % RMS) on the default duct, 7.4 % max
+ * (3.4 % RMS) over the 20 ducts of the geometry test below; the sharp lip, the widest lips and the diffuser
+ * just past its onset are the worst. Other seeds (7/8, 77, 140+) gave 4.3 % and 8.0 %. The threshold is the
+ * fixed seeds' figure rounded up to the next whole percent (the seeds are fixed, so it is reproducible).
  */
-const WITHIN_PERCENT = 7;
+const WITHIN_PERCENT = 8;
 const SETTLE_MS = 1800;
 const AVERAGE_MS = 500;
 

@@ -28,14 +28,15 @@
 // - Power: dCP = (sigma_l / 2)(kappa CL phi + CD) x^3 dx, where kappa (the induced-power factor, 1 by default)
 //   stands for everything this model leaves out of the induced loss: swirl, non-uniform wake, blade-tip
 //   vortex details. The profile-drag factor multiplies CD0. Both are free factors for calibration.
-// - Because nothing in the inflow solution depends on the rotational speed (the lift is Reynolds-independent
-//   in this polar), the inflow is solved once per rotor and only the profile drag is re-evaluated at each
-//   speed. That is what makes a 50-point curve cheap.
+// - The lift depends on the Reynolds number (airfoil.ts), so the inflow does too, slowly. It is solved at
+//   eight Reynolds numbers at 0.75 R (1/8 to 16 times the polar's reference, each station at its own Re) once
+//   per rotor, and a speed is evaluated between the two nodes around it, linear in log Re; the profile drag
+//   is evaluated exactly at each speed. That keeps a 50-point curve cheap and lets static CT rise with rpm.
 // - Coefficients are rotorcraft-normalised internally (CT = T / (rho A (Omega R)^2)); results also carry the
 //   propeller coefficients CT = T / (rho n^2 D^4), CP = P / (rho n^3 D^5).
 
 import type { AirState } from './atmosphere.js';
-import { DEFAULT_POLAR, liftDependentDrag, profileDrag, type AirfoilPolar } from './airfoil.js';
+import { DEFAULT_POLAR, liftDependentDrag, liftReynoldsFactor, profileDrag, type AirfoilPolar } from './airfoil.js';
 import type { PropellerSpec } from './rig-types.js';
 import { interp1 } from './numeric.js';
 
@@ -146,7 +147,7 @@ export interface BemtRotor {
   readonly polar: Readonly<AirfoilPolar>;
   readonly factors: Readonly<AeroFactors>;
   readonly stations: readonly StationSolution[];
-  /** Rotor thrust coefficient (rotorcraft form), excluding any duct thrust. */
+  /** Rotor thrust coefficient (rotorcraft form), excluding any duct thrust, at Re(0.75 R) = reynoldsRef. */
   readonly ctRotor: number;
   /** Total thrust coefficient (rotor plus duct). */
   readonly ctTotal: number;
@@ -157,6 +158,10 @@ export interface BemtRotor {
   readonly liftDrag: Float64Array;
   /** rho-free part of the station Reynolds number: Re = omega * rho / mu * reynoldsScale. */
   readonly reynoldsScale: Float64Array;
+  /** The same at 0.75 R, which places a speed between the Reynolds nodes. */
+  readonly re75Scale: number;
+  /** The rotor solved at Reynolds numbers (at 0.75 R) from 1/8 to 16 times reynoldsRef; one without the effect. */
+  readonly nodes: readonly RotorNode[];
 }
 
 function solveAnnulus(
@@ -233,58 +238,110 @@ export function prepareRotor(blade: BladeDefinition, inflowModel: InflowModel, o
     thrustMultiplier = (2 * s) / (1 + loss * s * s);
   }
   const a = polar.liftSlope_perRad * factors.liftFactor;
-  const polarForDrag: AirfoilPolar = { ...polar, liftSlope_perRad: a };
   const R = blade.radius_m;
   const x0 = blade.rootCutout;
   const dx = (1 - x0) / n;
-  const stations: StationSolution[] = [];
   const profileWeights = new Float64Array(n);
-  const liftDrag = new Float64Array(n);
   const reynoldsScale = new Float64Array(n);
-  let ct = 0;
-  let cpi = 0;
+  const xs = new Float64Array(n);
   for (let i = 0; i < n; i++) {
     const x = x0 + (i + 0.5) * dx;
+    xs[i] = x;
     const c = blade.chordAt(x);
-    const pitch = blade.pitchAt(x);
-    const solidity = (blade.blades * c) / (Math.PI * R);
-    const thetaEff = pitch - polar.zeroLiftAngle_rad;
-    const sol = solveAnnulus(x, solidity, thetaEff, a, polar.clMax, K, blade.blades, tipLoss, tipWeight);
-    const phi = sol.inflow / x;
-    const alpha = pitch - phi;
-    const cl = sol.stalled ? polar.clMax : Math.max(-polar.clMax, a * (alpha - polar.zeroLiftAngle_rad));
-    const w = (solidity / 2) * x * x * dx;
-    const dct = w * cl;
-    ct += dct;
-    cpi += dct * sol.inflow;
-    profileWeights[i] = w * x;
-    liftDrag[i] = liftDependentDrag(polarForDrag, alpha);
+    profileWeights[i] = (blade.blades * c) / (Math.PI * R) / 2 * x * x * dx * x;
     reynoldsScale[i] = R * x * c;
-    stations.push({ x, dx, chord_m: c, pitch_rad: pitch, solidity, inflow: sol.inflow, tipLoss: sol.F, alpha_rad: alpha, cl, stalled: sol.stalled });
   }
+  const re75Scale = R * 0.75 * blade.chordAt(0.75);
+  // Reynolds-number nodes at 0.75 R: the inflow is solved at each, with every station's lift slope and clMax
+  // at its own Reynolds number, and interpolated in log Re between them (see reynoldsNodes).
+  const nodeCount = polar.liftReynoldsExponent === 0 ? 1 : REYNOLDS_NODES.length;
+  const nodes: RotorNode[] = [];
+  for (let k = 0; k < nodeCount; k++) {
+    const re75 = nodeCount === 1 ? polar.reynoldsRef : polar.reynoldsRef * 2 ** REYNOLDS_NODES[k];
+    const stations: StationSolution[] = [];
+    const liftDrag = new Float64Array(n);
+    let ct = 0;
+    let cpi = 0;
+    for (let i = 0; i < n; i++) {
+      const x = xs[i];
+      const c = blade.chordAt(x);
+      const pitch = blade.pitchAt(x);
+      const solidity = (blade.blades * c) / (Math.PI * R);
+      const thetaEff = pitch - polar.zeroLiftAngle_rad;
+      const f = liftReynoldsFactor(polar, (re75 * reynoldsScale[i]) / re75Scale);
+      const ai = a * f;
+      const clMax = polar.clMax * f;
+      const sol = solveAnnulus(x, solidity, thetaEff, ai, clMax, K, blade.blades, tipLoss, tipWeight);
+      const phi = sol.inflow / x;
+      const alpha = pitch - phi;
+      const cl = sol.stalled ? clMax : Math.max(-clMax, ai * (alpha - polar.zeroLiftAngle_rad));
+      const w = (solidity / 2) * x * x * dx;
+      const dct = w * cl;
+      ct += dct;
+      cpi += dct * sol.inflow;
+      liftDrag[i] = liftDependentDrag({ ...polar, liftSlope_perRad: ai, clMax }, alpha);
+      stations.push({ x, dx, chord_m: c, pitch_rad: pitch, solidity, inflow: sol.inflow, tipLoss: sol.F, alpha_rad: alpha, cl, stalled: sol.stalled });
+    }
+    nodes.push({ log2Re: Math.log2(re75 / polar.reynoldsRef), ctRotor: ct, ctTotal: ct * thrustMultiplier, cpInduced: cpi * factors.inducedFactor, liftDrag, stations });
+  }
+  const ref = nodes[nodeCount === 1 ? 0 : REYNOLDS_NODES.indexOf(0)];
   return {
     blade,
     inflowModel,
     polar,
     factors,
-    stations,
-    ctRotor: ct,
-    ctTotal: ct * thrustMultiplier,
-    cpInduced: cpi * factors.inducedFactor,
+    stations: ref.stations,
+    ctRotor: ref.ctRotor,
+    ctTotal: ref.ctTotal,
+    cpInduced: ref.cpInduced,
     profileWeights,
-    liftDrag,
+    liftDrag: ref.liftDrag,
     reynoldsScale,
+    re75Scale,
+    nodes,
   };
 }
 
+/** Log2 of Re(0.75 R) / reynoldsRef at the nodes: 12,500 to 1.6 million for the default 100,000. */
+const REYNOLDS_NODES = [-3, -2, -1, 0, 1, 2, 3, 4];
+
+/** The rotor solved at one Reynolds number. */
+export interface RotorNode {
+  log2Re: number;
+  ctRotor: number;
+  ctTotal: number;
+  cpInduced: number;
+  liftDrag: Float64Array;
+  stations: StationSolution[];
+}
+
+/** The rotor's coefficients at a speed: between the two Reynolds nodes around it, linear in log Re. */
+export function rotorNodeAt(rotor: BemtRotor, omega: number, air: AirState): Omit<RotorNode, 'stations' | 'log2Re'> {
+  const ns = rotor.nodes;
+  if (ns.length === 1) return ns[0];
+  const re75 = (omega * air.density_kg_m3 * rotor.re75Scale) / air.viscosity_Pa_s;
+  const u = re75 > 0 ? Math.log2(re75 / rotor.polar.reynoldsRef) : -Infinity;
+  if (!(u > ns[0].log2Re)) return ns[0];
+  if (u >= ns[ns.length - 1].log2Re) return ns[ns.length - 1];
+  let k = 1;
+  while (ns[k].log2Re < u) k++;
+  const a = ns[k - 1];
+  const b = ns[k];
+  const t = (u - a.log2Re) / (b.log2Re - a.log2Re);
+  const lerp = (p: number, q: number): number => p + t * (q - p);
+  const liftDrag = new Float64Array(a.liftDrag.length);
+  for (let i = 0; i < liftDrag.length; i++) liftDrag[i] = lerp(a.liftDrag[i], b.liftDrag[i]);
+  return { ctRotor: lerp(a.ctRotor, b.ctRotor), ctTotal: lerp(a.ctTotal, b.ctTotal), cpInduced: lerp(a.cpInduced, b.cpInduced), liftDrag };
+}
+
 /** Profile power coefficient (rotorcraft form) at a rotational speed. */
-export function profilePowerCoefficient(rotor: BemtRotor, omega: number, air: AirState): number {
+export function profilePowerCoefficient(rotor: BemtRotor, omega: number, air: AirState, liftDrag: Float64Array = rotorNodeAt(rotor, omega, air).liftDrag): number {
   const nuInv = air.density_kg_m3 / air.viscosity_Pa_s;
   const f = rotor.factors.cd0Factor;
   let cp = 0;
   for (let i = 0; i < rotor.profileWeights.length; i++) {
     const re = omega * nuInv * rotor.reynoldsScale[i];
-    cp += rotor.profileWeights[i] * (f * profileDrag(rotor.polar, re) + rotor.liftDrag[i]);
+    cp += rotor.profileWeights[i] * (f * profileDrag(rotor.polar, re) + liftDrag[i]);
   }
   return cp;
 }
@@ -309,35 +366,51 @@ export function rotorAt(rotor: BemtRotor, omega: number, air: AirState): RotorSt
   const A = Math.PI * R * R;
   const rho = air.density_kg_m3;
   const tipSpeed = omega * R;
-  const cpTotal = rotor.cpInduced + profilePowerCoefficient(rotor, omega, air);
-  const thrust = rotor.ctTotal * rho * A * tipSpeed * tipSpeed;
+  const node = rotorNodeAt(rotor, omega, air);
+  const cpTotal = node.cpInduced + profilePowerCoefficient(rotor, omega, air, node.liftDrag);
+  const thrust = node.ctTotal * rho * A * tipSpeed * tipSpeed;
   const power = cpTotal * rho * A * tipSpeed * tipSpeed * tipSpeed;
   // CT_prop = CT_h pi^3 / 4 and CP_prop = CP_h pi^4 / 4 for the same rotor at the same speed.
-  const ctProp = (rotor.ctTotal * Math.PI ** 3) / 4;
+  const ctProp = (node.ctTotal * Math.PI ** 3) / 4;
   const cpProp = (cpTotal * Math.PI ** 4) / 4;
   return {
     rpm: (omega * 60) / (2 * Math.PI),
     thrust_N: thrust,
-    rotorThrust_N: rotor.ctRotor * rho * A * tipSpeed * tipSpeed,
+    rotorThrust_N: node.ctRotor * rho * A * tipSpeed * tipSpeed,
     torque_Nm: omega > 0 ? power / omega : 0,
     power_W: power,
     ct: ctProp,
     cp: cpProp,
-    figureOfMerit: cpTotal > 0 ? Math.pow(rotor.ctTotal, 1.5) / (Math.SQRT2 * cpTotal) : 0,
+    figureOfMerit: cpTotal > 0 ? Math.pow(node.ctTotal, 1.5) / (Math.SQRT2 * cpTotal) : 0,
   };
 }
 
 /** Rotorcraft-form coefficients at a speed: for comparing with closed-form hover results. */
 export function rotorCoefficients(rotor: BemtRotor, omega: number, air: AirState): { ct: number; cp: number; fm: number } {
-  const cp = rotor.cpInduced + profilePowerCoefficient(rotor, omega, air);
-  return { ct: rotor.ctTotal, cp, fm: Math.pow(rotor.ctTotal, 1.5) / (Math.SQRT2 * cp) };
+  const node = rotorNodeAt(rotor, omega, air);
+  const cp = node.cpInduced + profilePowerCoefficient(rotor, omega, air, node.liftDrag);
+  return { ct: node.ctTotal, cp, fm: Math.pow(node.ctTotal, 1.5) / (Math.SQRT2 * cp) };
 }
 
-/** Speed (rad/s) at which the rotor makes a thrust: exact, because CT does not depend on speed here. */
+/**
+ * Speed (rad/s) at which the rotor makes a thrust. CT moves only slowly with speed (through the Reynolds
+ * number: d ln CT / d ln omega is a few hundredths), so the fixed point omega = sqrt(T / (CT(omega) rho A)) / R
+ * converges in a few steps; without a Reynolds effect on lift it is exact at once.
+ */
 export function omegaForThrust(rotor: BemtRotor, thrust_N: number, air: AirState): number {
   const R = rotor.blade.radius_m;
   if (!(thrust_N > 0) || !(rotor.ctTotal > 0)) return 0;
-  return Math.sqrt(thrust_N / (rotor.ctTotal * air.density_kg_m3 * Math.PI * R * R)) / R;
+  const q = thrust_N / (air.density_kg_m3 * Math.PI * R * R);
+  let omega = Math.sqrt(q / rotor.ctTotal) / R;
+  for (let k = 0; k < 100; k++) {
+    const ct = rotorNodeAt(rotor, omega, air).ctTotal;
+    if (!(ct > 0)) return 0;
+    const next = Math.sqrt(q / ct) / R;
+    const done = Math.abs(next - omega) <= 1e-13 * next;
+    omega = next;
+    if (done) break;
+  }
+  return omega;
 }
 
 /** One-call static BEMT: thrust and torque at an rpm. */

@@ -23,4 +23,4 @@ export function radPerSecToRpm(omega: number): number {
 }
 
 /** Version of the performance model; bump when a prediction for the same rig changes. */
-export const modelVersion = '1.1.0';
+export const modelVersion = '2.0.0';
