@@ -71,18 +71,9 @@ const COMMANDS: Record<string, { spec?: CommandSpec; summary: string; run: (argv
     summary: 'run a throttle-step sequence headless (virtual bench or hardware) and report the operating points',
     run: async (a) => {
       const { runMain } = await import('./cli/run.js');
-      const { buildRigModel, predictAtThrottle } = await import('./model/index.js');
       return runMain(a, stdio, {
         defaultDataDir: DEFAULT_DATA_DIR,
-        // The model's prediction at each step, for the deviation column of the operating points.
-        predictorFor: (rig) => {
-          const { sim: _truth, ...described } = rig;
-          const model = buildRigModel(described);
-          return (throttle, voltage) => {
-            const p = predictAtThrottle(model, throttle, voltage);
-            return { thrust_N: p.thrust_N, power_W: p.powerElectrical_W, grams_per_watt: p.gramsPerWatt };
-          };
-        },
+        // The prediction at each step (with its band, and the fit kept in the data folder) is the daemon's own.
         // The run is one session in the store: its context, its points, and its outcome as the runner saw it.
         record: ({ tags, plan, daemon }) => {
           const keeper = daemon.sessions;

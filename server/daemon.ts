@@ -176,6 +176,8 @@ export interface RunningDaemon {
   web: WebSide;
   /** The zero step before every run and the zero's drift over it. */
   zero: ZeroService;
+  /** The prediction of the mount in force, with its band (what sequences from a dashboard use). */
+  predict(): PredictFn | null;
   /** Session recording, when a data folder was given. */
   sessions: SessionKeeper | null;
   /** Sequences started from a dashboard (one at a time). */
@@ -270,7 +272,7 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
   controller.maxThrottle = limits.max_throttle;
   const atmosphere = resolveAtmosphere(opts.atmosphere);
   // Calibrations of the model on open sweeps (per propeller and motor), and the banded model of the mount.
-  const fits = new ModelFitKeeper();
+  const fits = new ModelFitKeeper(opts.dataDir ?? null, log);
   // A current zero in the calibration in force narrows the measured side's share of the band (set below).
   let measuredZeros = UNCALIBRATED_ZEROS;
   const zerosOf = (c: Calibration) => (c.current.offset !== 0 ? { ...UNCALIBRATED_ZEROS, current_A: CALIBRATED_CURRENT_ZERO_A } : UNCALIBRATED_ZEROS);
@@ -793,6 +795,7 @@ export async function startDaemon(opts: DaemonOptions): Promise<RunningDaemon> {
     interlocks,
     web: webSide,
     zero,
+    predict: () => predict,
     sim,
     sessions,
     sequences,

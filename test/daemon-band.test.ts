@@ -101,4 +101,18 @@ describe('the prediction band', () => {
     for (const q of points) expect(q.within_band, `step ${q.index + 1}: ${q.grams_per_watt} g/W against ${q.predicted?.grams_per_watt_lo}..${q.predicted?.grams_per_watt_hi}`).toBe(true);
     expect(warnings).toEqual([]);
   }, 120_000);
+
+  it('is kept in the data folder: a daemon started again on it predicts with the fit and its narrow band', async () => {
+    const before = prediction();
+    c.close();
+    await d.close();
+    d = await startDaemon({ source: { kind: 'sim', seed: 9 }, httpPort: 0, dataDir: dir, log: () => {} });
+    await d.firstConnect;
+    c = await TestClient.connect(d.port, d.token);
+    await c.until(() => (c.snapshot!.extras.prediction as LivePrediction | null)?.band_source?.kind !== undefined || c.messages.some((m) => m.type === 'extras' && m.extras.prediction), 10_000, 'a prediction');
+    const p = prediction();
+    expect(p.band_source.kind).toBe('fit');
+    expect(p.fit?.points).toBe(before.fit?.points);
+    expect(p.band_hi_gpw).toEqual(before.band_hi_gpw);
+  });
 });

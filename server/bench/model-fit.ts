@@ -3,7 +3,12 @@
 // uses the fitted values, with the band from the fit's covariance (server/model/band.ts), for that propeller
 // and motor: a duct mounted later on the same propeller and motor is predicted from the same fit. A fit the
 // points cannot pin down (degenerate, not converged) is reported and not used.
+//
+// With a data folder the fits are kept in it (model-fits.json, written to a temporary file and renamed, so a
+// crash leaves the old file or the new one), one per propeller and motor, and the daemon starts on them.
 
+import { readFileSync, renameSync, writeFileSync } from 'node:fs';
+import { join } from 'node:path';
 import { calibrate, CalibrationError, type CalibrationResult, type FitParameter } from '../model/calibrate.js';
 import type { MeasuredPoint, ModelOptions } from '../model/predict.js';
 import type { RigSpec } from '../model/rig-types.js';
@@ -56,16 +61,46 @@ export function measuredPoints(points: readonly OperatingPoint[]): MeasuredPoint
   return out;
 }
 
+/** File of the kept fits in the data folder. */
+export const MODEL_FITS_FILE = 'model-fits.json';
+
 export class ModelFitKeeper {
-  private held: Held | null = null;
+  private readonly held = new Map<string, Held>();
+
+  /**
+   * `dir`: the data folder to keep the fits in, or null (kept in memory only). An unreadable file is reported
+   * through `log` and left alone until the next fit replaces it.
+   */
+  constructor(
+    private readonly dir: string | null = null,
+    private readonly log: (line: string) => void = () => {},
+  ) {
+    if (!dir) return;
+    let text: string;
+    try {
+      text = readFileSync(join(dir, MODEL_FITS_FILE), 'utf8');
+    } catch {
+      return; // none kept yet
+    }
+    try {
+      const doc = JSON.parse(text) as { version?: unknown; fits?: unknown };
+      if (doc.version !== 1 || !Array.isArray(doc.fits)) throw new Error('not a version 1 file of model fits');
+      for (const h of doc.fits as Held[]) {
+        if (typeof h?.key !== 'string' || !h.result || !Array.isArray(h.result.names) || !h.view) throw new Error('a fit without its key, result or view');
+        this.held.set(h.key, h);
+      }
+    } catch (err) {
+      log(`ductbench: ${join(dir, MODEL_FITS_FILE)} left unused: ${(err as Error).message}`);
+    }
+  }
 
   /** The fit for this rig's propeller and motor, or null. */
   forRig(rig: RigSpec | null): CalibrationResult | null {
-    return rig && this.held && this.held.key === partsKey(rig) ? this.held.result : null;
+    return rig ? (this.held.get(partsKey(rig))?.result ?? null) : null;
   }
 
   view(rig: RigSpec | null): ModelFitView | null {
-    return rig && this.held && this.held.key === partsKey(rig) ? this.held.view : null;
+    return rig ? (this.held.get(partsKey(rig))?.view ?? null) : null;
   }
 
   /**
@@ -90,11 +125,26 @@ export class ModelFitKeeper {
           rms_percent: r.rmsPercent,
           for: `propeller ${(rig.propeller.diameter_m / 0.0254).toFixed(1)} x ${(rig.propeller.pitch_m / 0.0254).toFixed(1)} in on a ${rig.motor.kv_rpm_per_v} rpm/V motor`,
         };
-        this.held = { key: partsKey(rig), result: r, view };
+        const key = partsKey(rig);
+        this.held.set(key, { key, result: r, view });
+        this.save();
         return view;
       }
       why = r.degenerate ? (r.degenerateReason ?? "degenerate") : "did not converge";
     }
     throw new CalibrationError(`the fit to this sweep is not usable: ${why}`);
+  }
+
+  private save(): void {
+    if (!this.dir) return;
+    const file = join(this.dir, MODEL_FITS_FILE);
+    const tmp = `${file}.${process.pid}.tmp`;
+    try {
+      writeFileSync(tmp, JSON.stringify({ version: 1, fits: [...this.held.values()] }, null, 1));
+      renameSync(tmp, file);
+    } catch (err) {
+      // The fit is in force for this daemon session either way; only its keeping failed.
+      this.log(`ductbench: the model fit was not kept in ${file}: ${(err as Error).message}`);
+    }
   }
 }

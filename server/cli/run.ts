@@ -328,7 +328,8 @@ async function runInner(argv: string[], io: RunIo, hooks: RunHooks, say: (s: str
       temperatureLimitC: limits.max_temp_c,
       diskArea_m2: rigInUse ? rigGeometry(rigInUse).diskArea_m2 : null,
       ...(has('air-density') ? { airDensity_kg_m3: Number(o['air-density']) } : {}),
-      predict: rigInUse && hooks.predictorFor ? hooks.predictorFor(rigInUse) : null,
+      // The daemon's prediction of its mount (with its band and any fit kept in the data folder), unless a hook gives another.
+      predict: rigInUse ? (hooks.predictorFor ? hooks.predictorFor(rigInUse) : daemon.predict()) : null,
     });
 
     hooks.onRunner?.(runner, daemon);
